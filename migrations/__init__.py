@@ -1,0 +1,1 @@
+"""Alembic migrations: the only way plantdb's schema is made or changed."""

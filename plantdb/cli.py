@@ -1,0 +1,129 @@
+"""The `plantdb` command: parses, calls plantdb's services, prints. Thin on purpose.
+
+Exit status: 0 done; 1 understood but refused (one clear line on standard error naming what
+and where, then any details); 2 a usage error (click's own).
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any, TypeVar
+
+import click
+from sqlalchemy.exc import DBAPIError
+
+from plantdb import __version__
+from plantdb.db import Database, require_current_schema, resolve_url, run_in_transaction
+from plantdb.errors import PlantError
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+class Invocation:
+    """What every command gets: where the database is, and whether to print JSON."""
+
+    def __init__(self, db_url: str | None, as_json: bool) -> None:
+        self.url = resolve_url(db_url)
+        self.as_json = as_json
+        self._database: Database | None = None
+
+    def database(self, *, current: bool = True) -> Database:
+        """The database, refused unless its schema is the code's newest (unless told not to)."""
+        if self._database is None:
+            self._database = Database(self.url)
+        if current:
+            require_current_schema(self._database.engine)
+        return self._database
+
+    def emit(self, document: Any, text: Callable[[Any], str]) -> None:
+        """Print the JSON document with --json, else its human-readable form."""
+        if self.as_json:
+            click.echo(json.dumps(document, indent=1, ensure_ascii=False))
+        else:
+            click.echo(text(document))
+
+    def close(self) -> None:
+        if self._database is not None:
+            self._database.dispose()
+
+
+def plant_command(group: click.Group, name: str, **settings: Any) -> Callable[[F], F]:
+    """Register a command with the --db and --json options every command accepts."""
+
+    def decorate(function: F) -> F:
+        @group.command(name, **settings)
+        @click.option(
+            "--db",
+            "db_url",
+            metavar="URL",
+            help="SQLAlchemy database URL (default: $PLANTDB_DATABASE_URL, else ./plantdb.sqlite)",
+        )
+        @click.option("--json", "as_json", is_flag=True, help="Print the JSON document.")
+        @click.pass_context
+        @functools.wraps(function)
+        def wrapper(ctx: click.Context, db_url: str | None, as_json: bool, **kwargs: Any) -> Any:
+            parent = ctx.find_object(_GroupOptions)
+            invocation = Invocation(
+                db_url or (parent.db_url if parent else None),
+                as_json or bool(parent and parent.as_json),
+            )
+            try:
+                return function(invocation, **kwargs)
+            finally:
+                invocation.close()
+
+        return wrapper  # type: ignore[return-value]
+
+    return decorate
+
+
+class _GroupOptions:
+    def __init__(self, db_url: str | None, as_json: bool) -> None:
+        self.db_url = db_url
+        self.as_json = as_json
+
+
+class _Group(click.Group):
+    """Turns a refusal into one clear line on standard error and exit status 1."""
+
+    def invoke(self, ctx: click.Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except PlantError as exc:
+            _refuse(exc.message, exc.details)
+        except DBAPIError as exc:
+            _refuse(f"database error: {str(exc.orig).strip().splitlines()[0]}", [])
+        except OSError as exc:
+            _refuse(f"{exc.strerror or exc}: {exc.filename or ''}".rstrip(": "), [])
+
+
+def _refuse(message: str, details: list[str]) -> None:
+    click.echo(f"plantdb: {message}", err=True)
+    for line in details:
+        click.echo(f"  {line}", err=True)
+    sys.exit(1)
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="plantdb")
+@click.option("--db", "db_url", metavar="URL", help="SQLAlchemy database URL for any command.")
+@click.option("--json", "as_json", is_flag=True, help="Print JSON documents.")
+@click.pass_context
+def cli(ctx: click.Context, db_url: str | None, as_json: bool) -> None:
+    """plantdb: the record of a fiber-optic cable plant, and the answers drawn from it."""
+    ctx.obj = _GroupOptions(db_url, as_json)
+
+
+def main() -> None:
+    """Console entry point."""
+    cli(prog_name="plantdb")
+
+
+# The commands live in their own modules; importing them registers them on `cli`.
+from plantdb import cli_commands  # noqa: E402,F401
+
+__all__ = ["Invocation", "Path", "cli", "main", "plant_command", "run_in_transaction"]

@@ -1,0 +1,1 @@
+"""What clerks do to the record: bundles, splicing rules, imports and exports."""

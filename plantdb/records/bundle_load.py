@@ -1,0 +1,411 @@
+"""Loading a bundle: validate every item against the record, then write it all in one go.
+
+The caller owns the transaction (`run_in_transaction`); any problem raises `BundleError` with
+every problem found, each naming the item by its path and label, and the transaction rolls
+back, so the database is left as it was. Sections load in dependency order; the plant's
+places here, its cables in `bundle_cables`, its connections in `bundle_connections`.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from typing import Any
+
+from sqlalchemy import insert
+from sqlalchemy.orm import Session
+
+from plantdb import geo
+from plantdb.errors import PlantError
+from plantdb.model import (
+    Closure,
+    Equipment,
+    EquipmentRole,
+    FiberMode,
+    FiberType,
+    FiberTypeWavelength,
+    Panel,
+    Port,
+    Route,
+    RouteSpan,
+    Span,
+    SpanKind,
+    Splitter,
+    SplitterLeg,
+    Structure,
+    StructureKind,
+    Tray,
+)
+from plantdb.records.lookup import PlaceInfo, RecordLookup, SplitterInfo, StructureRef
+from plantdb.records.placement import chain_spans
+
+# A drawn span must start and end at its structures; a line drawn backwards or attached to
+# the wrong structure would misplace every break located along it.
+GEOMETRY_TOLERANCE_M = 50.0
+MAX_REPORTED = 200
+_RATIO = re.compile(r"^([12])\s*[xX]\s*(\d+)$")
+
+
+class BundleError(PlantError):
+    """A bundle refused: every problem found, each with its path."""
+
+    def __init__(self, problems: list[str]) -> None:
+        shown = problems[:MAX_REPORTED]
+        if len(problems) > MAX_REPORTED:
+            shown.append(f"... and {len(problems) - MAX_REPORTED} more")
+        noun = "problem" if len(problems) == 1 else "problems"
+        super().__init__(f"bundle not loaded, nothing was written: {len(problems)} {noun}", shown)
+
+
+@dataclass
+class LoadContext:
+    """What the section loaders share: the session, the cached lookup, the problems found."""
+
+    session: Session
+    lookup: RecordLookup
+    problems: list[str] = field(default_factory=list)
+    counts: dict[str, int] = field(default_factory=dict)
+    seen: dict[str, set[str]] = field(default_factory=dict)
+
+    def problem(self, path: str, message: str) -> None:
+        self.problems.append(f"{path}: {message}")
+
+    def claim(self, kind: str, label: str, path: str, exists: bool) -> bool:
+        """Record a new label; a problem if the record or this bundle already has it."""
+        taken = self.seen.setdefault(kind, set())
+        if exists or label in taken:
+            self.problem(path, f"{label} already exists")
+            return False
+        taken.add(label)
+        return True
+
+    def claim_place(self, label: str, path: str) -> bool:
+        """Cables, closures, panels, equipment and splitters share one namespace."""
+        return self.claim("place", label, path, self.lookup.place_kind(label) is not None)
+
+    def insert_ids(self, model: Any, rows: list[dict[str, Any]]) -> list[int]:
+        """Insert rows in one statement; their new ids in the rows' order."""
+        if not rows:
+            return []
+        result = self.session.execute(
+            insert(model).returning(model.id, sort_by_parameter_order=True), rows
+        )
+        return list(result.scalars().all())
+
+    def insert(self, model: Any, rows: list[dict[str, Any]]) -> None:
+        if rows:
+            self.session.execute(insert(model), rows)
+
+    def count(self, section: str, n: int) -> None:
+        self.counts[section] = self.counts.get(section, 0) + n
+
+
+def items(data: dict[str, Any], key: str) -> Iterable[tuple[str, dict[str, Any]]]:
+    """(path, item) for each item of a section."""
+    for i, item in enumerate(data.get(key) or []):
+        yield f"{key}[{i}]", item
+
+
+def named(path: str, label: str) -> str:
+    return f"{path} ({label})"
+
+
+def not_one_of(what: str, value: object, enum_class: Any) -> str:
+    options = ", ".join(str(m.value) for m in enum_class)
+    return f"{what} {value!r} is not one of {options}"
+
+
+def load_fiber_types(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "fiber_types"):
+        name = item["name"]
+        if not ctx.claim("fiber_type", name, path, ctx.lookup.fiber_type(name) is not None):
+            continue
+        core, cladding = item.get("core_index"), item.get("cladding_index")
+        if core is not None and cladding is not None and core <= cladding:
+            ctx.problem(named(path, name), "core_index must be above cladding_index")
+            continue
+        row = {key: item.get(key) for key in ("standard", "core_um", "cladding_um", "notes")}
+        row.update(name=name, mode=FiberMode(item["mode"]), core_index=core)
+        row["cladding_index"] = cladding
+        (fiber_type_id,) = ctx.insert_ids(FiberType, [row])
+        attenuation = item.get("attenuation_db_per_km") or {}
+        group = item.get("group_index") or {}
+        ctx.insert(
+            FiberTypeWavelength,
+            [
+                {
+                    "fiber_type_id": fiber_type_id,
+                    "wavelength_nm": int(nm),
+                    "attenuation_max": (attenuation.get(nm) or {}).get("max"),
+                    "attenuation_typical": (attenuation.get(nm) or {}).get("typical"),
+                    "group_index": group.get(nm),
+                }
+                for nm in sorted(set(attenuation) | set(group), key=int)
+            ],
+        )
+        ctx.lookup.remember_fiber_type(name, fiber_type_id, item["mode"])
+        ctx.count("fiber_types", 1)
+
+
+def load_structures(ctx: LoadContext, data: dict[str, Any]) -> None:
+    rows = []
+    for path, item in items(data, "structures"):
+        label = item["label"]
+        if not ctx.claim("structure", label, path, ctx.lookup.structure(label) is not None):
+            continue
+        if item["kind"] not in StructureKind._value2member_map_:
+            ctx.problem(named(path, label), not_one_of("kind", item["kind"], StructureKind))
+            continue
+        row: dict[str, Any] = {key: item.get(key) for key in ("label", "name", "notes")}
+        row.update(kind=StructureKind(item["kind"]), lon=float(item["lon"]))
+        row["lat"] = float(item["lat"])
+        rows.append(row)
+    for row, new_id in zip(rows, ctx.insert_ids(Structure, rows), strict=True):
+        ctx.lookup.remember_structure(row["label"], StructureRef(new_id, row["lon"], row["lat"]))
+    ctx.count("structures", len(rows))
+
+
+def _span_row(ctx: LoadContext, path: str, item: dict[str, Any]) -> dict[str, Any] | None:
+    label = item["label"]
+    where = named(path, label)
+    ends = [ctx.lookup.structure(item[key]) for key in ("from", "to")]
+    for key, ref in zip(("from", "to"), ends, strict=True):
+        if ref is None:
+            ctx.problem(where, f"{key}: no structure is labelled {item[key]}")
+    if item["kind"] not in SpanKind._value2member_map_:
+        ctx.problem(where, not_one_of("kind", item["kind"], SpanKind))
+        return None
+    start, end = ends
+    if start is None or end is None:
+        return None
+    if start.id == end.id:
+        ctx.problem(where, f"a span joins two different structures, not {item['from']} to itself")
+        return None
+    line = item.get("geometry") or [[start.lon, start.lat], [end.lon, end.lat]]
+    for which, ref, position in (("first", start, line[0]), ("last", end, line[-1])):
+        gap = geo.distance_m(position, (ref.lon, ref.lat))
+        if gap > GEOMETRY_TOLERANCE_M:
+            key = "from" if which == "first" else "to"
+            ctx.problem(
+                where,
+                f"geometry's {which} position is {gap:.0f} m from {key} structure"
+                f" {item[key]} (allowed {GEOMETRY_TOLERANCE_M:g} m; is the line drawn"
+                " backwards?)",
+            )
+            return None
+    west, south, east, north = geo.bbox(line)
+    return {
+        "label": label,
+        "kind": SpanKind(item["kind"]),
+        "from_structure_id": start.id,
+        "to_structure_id": end.id,
+        "surveyed_length_m": item.get("length_m"),
+        "geodesic_length_m": geo.line_length_m(line),
+        "geometry": [[float(p[0]), float(p[1])] for p in line],
+        "min_lon": west,
+        "min_lat": south,
+        "max_lon": east,
+        "max_lat": north,
+        "notes": item.get("notes"),
+    }
+
+
+def load_spans(ctx: LoadContext, data: dict[str, Any]) -> None:
+    rows = []
+    for path, item in items(data, "spans"):
+        if not ctx.claim("span", item["label"], path, ctx.lookup.span(item["label"]) is not None):
+            continue
+        row = _span_row(ctx, path, item)
+        if row is not None:
+            rows.append(row)
+    for row, new_id in zip(rows, ctx.insert_ids(Span, rows), strict=True):
+        ctx.lookup.remember_span(
+            row["label"], new_id, row["from_structure_id"], row["to_structure_id"]
+        )
+    ctx.count("spans", len(rows))
+
+
+def load_routes(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "routes"):
+        label = item["label"]
+        exists = bool(ctx.session.query(Route.id).filter(Route.label == label).first())
+        if not ctx.claim("route", label, path, exists):
+            continue
+        spans = [ctx.lookup.span(name) for name in item["spans"]]
+        missing = [name for name, span in zip(item["spans"], spans, strict=True) if span is None]
+        if missing:
+            ctx.problem(named(path, label), f"no span is labelled {', '.join(missing)}")
+            continue
+        chain = [span for span in spans if span is not None]
+        try:
+            try:
+                chain_spans(chain, chain[0].from_id, ctx.lookup.structure_label)
+            except PlantError:
+                chain_spans(chain, chain[0].to_id, ctx.lookup.structure_label)
+        except PlantError as exc:
+            ctx.problem(named(path, label), f"its spans do not join end to end: {exc.message}")
+            continue
+        (route_id,) = ctx.insert_ids(Route, [{"label": label, "name": item.get("name")}])
+        ctx.insert(
+            RouteSpan,
+            [
+                {"route_id": route_id, "seq": seq, "span_id": ctx.lookup.span_id(name)}
+                for seq, name in enumerate(item["spans"])
+            ],
+        )
+        ctx.count("routes", 1)
+
+
+def _at_structure(ctx: LoadContext, path: str, label: str, at: str) -> StructureRef | None:
+    ref = ctx.lookup.structure(at)
+    if ref is None:
+        ctx.problem(named(path, label), f"at: no structure is labelled {at}")
+    return ref
+
+
+def load_closures(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "closures"):
+        label = item["label"]
+        if not ctx.claim_place(label, path):
+            continue
+        structure = _at_structure(ctx, path, label, item["at"])
+        capacities = item.get("tray_slots")
+        if capacities is None:
+            per_tray = item.get("slots_per_tray")
+            if per_tray is None and item["trays"] > 0:
+                ctx.problem(named(path, label), "slots_per_tray: missing (the trays' capacity)")
+                continue
+            capacities = [per_tray] * item["trays"]
+        elif len(capacities) != item["trays"]:
+            ctx.problem(
+                named(path, label),
+                f"tray_slots lists {len(capacities)} trays but trays says {item['trays']}",
+            )
+            continue
+        if structure is None:
+            continue
+        (closure_id,) = ctx.insert_ids(
+            Closure,
+            [{"label": label, "structure_id": structure.id, "notes": item.get("notes")}],
+        )
+        ctx.insert(
+            Tray,
+            [
+                {"closure_id": closure_id, "number": n, "capacity": capacity}
+                for n, capacity in enumerate(capacities, start=1)
+            ],
+        )
+        ctx.lookup.remember_closure(PlaceInfo(closure_id, label, structure.id))
+        ctx.count("closures", 1)
+
+
+def load_panels(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "panels"):
+        label = item["label"]
+        if not ctx.claim_place(label, path):
+            continue
+        structure = _at_structure(ctx, path, label, item["at"])
+        if structure is None:
+            continue
+        row = {key: item.get(key) for key in ("label", "rack", "connector", "polish", "notes")}
+        row.update(structure_id=structure.id, port_count=item["ports"])
+        (panel_id,) = ctx.insert_ids(Panel, [row])
+        ctx.insert(
+            Port,
+            [
+                {
+                    "panel_id": panel_id,
+                    "name": str(n),
+                    "number": n,
+                    "connector": item.get("connector"),
+                    "polish": item.get("polish"),
+                }
+                for n in range(1, item["ports"] + 1)
+            ],
+        )
+        ctx.lookup.remember_panel(PlaceInfo(panel_id, label, structure.id, item["ports"]))
+        ctx.count("panels", 1)
+
+
+def load_equipment(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "equipment"):
+        label = item["label"]
+        if not ctx.claim_place(label, path):
+            continue
+        structure = _at_structure(ctx, path, label, item["at"])
+        role = item.get("role") or "other"
+        if role not in EquipmentRole._value2member_map_:
+            ctx.problem(named(path, label), not_one_of("role", role, EquipmentRole))
+            continue
+        names = [name.strip() for name in item["ports"]]
+        duplicates = sorted({name for name in names if names.count(name) > 1})
+        if duplicates:
+            ctx.problem(named(path, label), f"ports listed twice: {', '.join(duplicates)}")
+            continue
+        if EquipmentRole(role).inline and len(names) != 2:
+            ctx.problem(named(path, label), f"a {role} passes light between exactly two ports")
+            continue
+        if structure is None:
+            continue
+        row = {key: item.get(key) for key in ("label", "rack", "tx_dbm", "notes")}
+        row.update(structure_id=structure.id, role=EquipmentRole(role))
+        row["rx_sensitivity_dbm"] = item.get("rx_sensitivity_dbm")
+        (equipment_id,) = ctx.insert_ids(Equipment, [row])
+        ctx.insert(Port, [{"equipment_id": equipment_id, "name": name} for name in names])
+        ctx.lookup.remember_equipment(PlaceInfo(equipment_id, label, structure.id))
+        ctx.count("equipment", 1)
+
+
+def parse_ratio(text: str) -> tuple[int, int]:
+    """`1x32` -> (1, 32); refuses anything but 1xN or 2xN with N >= 2."""
+    match = _RATIO.match(text.strip())
+    if not match or int(match.group(2)) < 2:
+        raise PlantError(f"ratio {text!r} is not 1xN or 2xN (N at least 2)")
+    return int(match.group(1)), int(match.group(2))
+
+
+def load_splitters(ctx: LoadContext, data: dict[str, Any]) -> None:
+    for path, item in items(data, "splitters"):
+        label = item["label"]
+        if not ctx.claim_place(label, path):
+            continue
+        closure, panel = ctx.lookup.closure(item["at"]), ctx.lookup.panel(item["at"])
+        place = closure or panel
+        if place is None:
+            ctx.problem(named(path, label), f"at: no closure or panel is labelled {item['at']}")
+            continue
+        try:
+            inputs, outputs = parse_ratio(item["ratio"])
+        except PlantError as exc:
+            ctx.problem(named(path, label), exc.message)
+            continue
+        (splitter_id,) = ctx.insert_ids(
+            Splitter,
+            [
+                {
+                    "label": label,
+                    "closure_id": closure.id if closure else None,
+                    "panel_id": panel.id if panel else None,
+                    "inputs": inputs,
+                    "outputs": outputs,
+                    "loss_db": item.get("loss_db"),
+                }
+            ],
+        )
+        names = ["in", "in2"][:inputs] + [str(n) for n in range(1, outputs + 1)]
+        legs = [{"splitter_id": splitter_id, "name": name} for name in names]
+        leg_ids = ctx.insert_ids(SplitterLeg, legs)
+        ctx.lookup.remember_splitter(
+            SplitterInfo(
+                splitter_id,
+                label,
+                closure.id if closure else None,
+                panel.id if panel else None,
+                inputs,
+                outputs,
+                dict(zip(names, leg_ids, strict=True)),
+                place.structure_id,
+            )
+        )
+        ctx.count("splitters", 1)
