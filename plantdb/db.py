@@ -158,7 +158,9 @@ def _alembic_config(engine: Engine) -> Any:
 
     config = Config()
     config.set_main_option("script_location", str(migrations_folder()))
-    config.set_main_option("sqlalchemy.url", engine.url.render_as_string(hide_password=False))
+    # The option goes through ConfigParser interpolation: a literal % must be doubled.
+    url = engine.url.render_as_string(hide_password=False).replace("%", "%%")
+    config.set_main_option("sqlalchemy.url", url)
     return config
 
 

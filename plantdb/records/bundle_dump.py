@@ -48,7 +48,7 @@ def _value(enum_or_text: Any) -> Any:
 
 def dump_bundle(session: Session) -> dict[str, Any]:
     """The whole record as a bundle dict (format plantdb-bundle, version 1)."""
-    structures = dict(iter(session.execute(select(Structure.id, Structure.label)).tuples()))
+    structures = dict(iter(session.execute(select(Structure.id, Structure.label))))
     bundle: dict[str, Any] = {"format": FORMAT, "version": VERSION}
     bundle["fiber_types"] = _fiber_types(session)
     bundle["structures"] = [
@@ -167,7 +167,7 @@ def _routes(session: Session) -> list[dict[str, Any]]:
         select(RouteSpan.route_id, Span.label)
         .join(Span, Span.id == RouteSpan.span_id)
         .order_by(RouteSpan.route_id, RouteSpan.seq)
-    ).tuples():
+    ):
         spans[route_id].append(label)
     return [
         _clean({"label": r.label, "name": r.name, "spans": spans[r.id]})
@@ -179,7 +179,7 @@ def _closures(session: Session, structures: dict[int, str]) -> list[dict[str, An
     capacities: dict[int, list[int]] = defaultdict(list)
     for closure_id, capacity in session.execute(
         select(Tray.closure_id, Tray.capacity).order_by(Tray.closure_id, Tray.number)
-    ).tuples():
+    ):
         capacities[closure_id].append(capacity)
     out = []
     for c in session.scalars(select(Closure).order_by(Closure.id)):
@@ -202,7 +202,7 @@ def _equipment(session: Session, structures: dict[int, str]) -> list[dict[str, A
     ports: dict[int, list[str]] = defaultdict(list)
     for equipment_id, name in session.execute(
         select(Port.equipment_id, Port.name).where(Port.equipment_id.is_not(None)).order_by(Port.id)
-    ).tuples():
+    ):
         assert equipment_id is not None
         ports[equipment_id].append(name)
     return [
@@ -228,7 +228,7 @@ def _splitters(session: Session) -> list[dict[str, Any]]:
         .outerjoin(Closure, Closure.id == Splitter.closure_id)
         .outerjoin(Panel, Panel.id == Splitter.panel_id)
         .order_by(Splitter.id)
-    ).tuples()
+    )
     return [
         _clean({"label": s.label, "at": at, "ratio": s.ratio, "loss_db": s.loss_db})
         for s, at in rows
@@ -241,7 +241,7 @@ def _cables(session: Session, structures: dict[int, str]) -> list[dict[str, Any]
         select(CableSpan.cable_id, Span.label)
         .join(Span, Span.id == CableSpan.span_id)
         .order_by(CableSpan.cable_id, CableSpan.seq)
-    ).tuples():
+    ):
         spans[cable_id].append(label)
     stations: dict[int, list[dict[str, Any]]] = defaultdict(list)
     for cable_id, at, mark in session.execute(
@@ -249,14 +249,14 @@ def _cables(session: Session, structures: dict[int, str]) -> list[dict[str, Any]
         .outerjoin(Closure, Closure.id == Station.closure_id)
         .outerjoin(Panel, Panel.id == Station.panel_id)
         .order_by(Station.cable_id, Station.seq)
-    ).tuples():
+    ):
         stations[cable_id].append(_clean({"at": at, "mark_m": mark}))
     slack: dict[int, list[dict[str, Any]]] = defaultdict(list)
     for coil in session.scalars(select(SlackCoil).order_by(SlackCoil.cable_id, SlackCoil.id)):
         slack[coil.cable_id].append(
             {"at": structures[coil.structure_id], "length_m": coil.length_m}
         )
-    fiber_types = dict(iter(session.execute(select(FiberType.id, FiberType.name)).tuples()))
+    fiber_types = dict(iter(session.execute(select(FiberType.id, FiberType.name))))
     return [
         _clean(
             {
@@ -297,7 +297,7 @@ class _EndNames:
                 select(Station.id, Station.seq, edge.c.first, edge.c.last).join(
                     edge, edge.c.cable_id == Station.cable_id
                 )
-            ).tuples()
+            )
         }
         self.ports = {
             pid: f"{owner}:{name}"
@@ -305,7 +305,7 @@ class _EndNames:
                 select(Port.id, func.coalesce(Panel.label, Equipment.label), Port.name)
                 .outerjoin(Panel, Panel.id == Port.panel_id)
                 .outerjoin(Equipment, Equipment.id == Port.equipment_id)
-            ).tuples()
+            )
         }
         self.legs = {
             lid: f"{label}:{name}"
@@ -313,7 +313,7 @@ class _EndNames:
                 select(SplitterLeg.id, Splitter.label, SplitterLeg.name).join(
                     Splitter, Splitter.id == SplitterLeg.splitter_id
                 )
-            ).tuples()
+            )
         }
 
     def port(self, port_id: int) -> str:
@@ -365,7 +365,7 @@ def _cuts(session: Session, ends: _EndNames) -> list[dict[str, Any]]:
         )
         .where(connected.id.is_(None))
         .order_by(Cut.id)
-    ).tuples()
+    )
     return [{"closure": closure, "fiber": f"{cable}:{number}"} for closure, cable, number in rows]
 
 
@@ -378,7 +378,7 @@ def _splices(session: Session, ends: _EndNames) -> list[dict[str, Any]]:
         .join(Closure, Closure.id == Splice.closure_id)
         .join(Tray, Tray.id == Splice.tray_id)
         .order_by(Splice.id)
-    ).tuples()
+    )
     return [
         _clean(
             {
@@ -412,7 +412,7 @@ def _jumpers(session: Session, ends: _EndNames) -> list[dict[str, Any]]:
     ports: dict[int, dict[int, str]] = defaultdict(dict)
     for port_id, jumper_id, side in session.execute(
         select(Port.id, Port.jumper_id, Port.jumper_side).where(Port.jumper_id.is_not(None))
-    ).tuples():
+    ):
         assert jumper_id is not None and side is not None
         ports[jumper_id][side] = ends.port(port_id)
     return [
@@ -426,7 +426,7 @@ def _loss_tests(session: Session) -> list[dict[str, Any]]:
         select(LossTest, Circuit.label)
         .join(Circuit, Circuit.id == LossTest.circuit_id)
         .order_by(LossTest.id)
-    ).tuples()
+    )
     return [
         _clean(
             {

@@ -98,7 +98,8 @@ class LoadContext:
             self.session.execute(insert(model), rows)
 
     def count(self, section: str, n: int) -> None:
-        self.counts[section] = self.counts.get(section, 0) + n
+        if n:
+            self.counts[section] = self.counts.get(section, 0) + n
 
 
 def items(data: dict[str, Any], key: str) -> Iterable[tuple[str, dict[str, Any]]]:

@@ -237,7 +237,7 @@ class RecordLookup:
                             select(SplitterLeg.name, SplitterLeg.id).where(
                                 SplitterLeg.splitter_id == row[0]
                             )
-                        ).tuples()
+                        )
                     )
                 )
                 info = SplitterInfo(row[0], label, row[1], row[2], row[3], row[4], legs, row[5])
@@ -308,7 +308,7 @@ class RecordLookup:
                 iter(
                     self.session.execute(
                         select(Strand.number, Strand.id).where(Strand.cable_id == cable_id)
-                    ).tuples()
+                    )
                 )
             )
         return self._strands[cable_id].get(number)
@@ -321,11 +321,7 @@ class RecordLookup:
         if key not in self._ports:
             column = Port.panel_id if kind == "panel" else Port.equipment_id
             self._ports[key] = dict(
-                iter(
-                    self.session.execute(
-                        select(Port.name, Port.id).where(column == owner_id)
-                    ).tuples()
-                )
+                iter(self.session.execute(select(Port.name, Port.id).where(column == owner_id)))
             )
         return self._ports[key].get(name)
 

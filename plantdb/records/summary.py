@@ -49,9 +49,7 @@ def record_counts(session: Session) -> dict[str, int]:
     counts["terminations"] = int(
         session.scalar(select(func.count()).where(FiberEnd.port_id.is_not(None))) or 0
     )
-    for status, n in session.execute(
-        select(Circuit.status, func.count()).group_by(Circuit.status)
-    ).tuples():
+    for status, n in session.execute(select(Circuit.status, func.count()).group_by(Circuit.status)):
         counts[f"circuits_{CircuitStatus(status).value}"] = int(n)
     return counts
 

@@ -1,0 +1,219 @@
+"""Hand-built test networks: a small builder of bundles, and a few networks tests share.
+
+Positions are given in metres east/north of a local origin and turned into WGS 84 degrees, so
+a test can say "a manhole 250 m east of the office" and the drawn lines have real lengths.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+from typing import Any
+
+ORIGIN_LON, ORIGIN_LAT = -0.60, 51.00
+_M_PER_DEG_LAT = 111_195.0
+
+
+def position(east_m: float, north_m: float = 0.0) -> list[float]:
+    """[lon, lat] of a point `east_m`/`north_m` metres from the origin (spherical approximation)."""
+    lat = ORIGIN_LAT + north_m / _M_PER_DEG_LAT
+    lon = ORIGIN_LON + east_m / (_M_PER_DEG_LAT * math.cos(math.radians(ORIGIN_LAT)))
+    return [round(lon, 8), round(lat, 8)]
+
+
+SINGLE_MODE = {
+    "name": "SM-TEST",
+    "mode": "single-mode",
+    "standard": "ITU-T G.652.D",
+    # ANSI/TIA-568.3-D outside-plant cabled maximum 0.5 dB/km (seen); typical 0.35 / 0.22
+    # dB/km at 1310 / 1550 nm (trade).
+    "attenuation_db_per_km": {
+        "1310": {"max": 0.5, "typical": 0.35},
+        "1550": {"max": 0.5, "typical": 0.22},
+    },
+    # Group index of standard single-mode fiber from a fiber datasheet (seen).
+    "group_index": {"1310": 1.4677, "1550": 1.4682},
+}
+
+MULTIMODE = {
+    "name": "MM-TEST",
+    "mode": "multimode",
+    "standard": "OM4",
+    # ANSI/TIA-568.3-D multimode maxima 3.5 dB/km at 850 nm, 1.5 at 1300 nm (memory).
+    "attenuation_db_per_km": {
+        "850": {"max": 3.5, "typical": 3.0},
+        "1300": {"max": 1.5, "typical": 1.0},
+    },
+    # Multimode 50/125 group index (seen).
+    "group_index": {"850": 1.481, "1300": 1.476},
+}
+
+
+class Bundle:
+    """Builds a bundle dict item by item; `data` is the bundle."""
+
+    def __init__(self) -> None:
+        self.data: dict[str, Any] = {"format": "plantdb-bundle", "version": 1}
+        self._positions: dict[str, list[float]] = {}
+
+    def _add(self, section: str, item: dict[str, Any]) -> Bundle:
+        self.data.setdefault(section, []).append({k: v for k, v in item.items() if v is not None})
+        return self
+
+    def fiber_type(self, item: dict[str, Any]) -> Bundle:
+        return self._add("fiber_types", copy.deepcopy(item))
+
+    def structure(
+        self, label: str, east_m: float, north_m: float = 0.0, kind: str = "manhole"
+    ) -> Bundle:
+        self._positions[label] = position(east_m, north_m)
+        lon, lat = self._positions[label]
+        return self._add("structures", {"label": label, "kind": kind, "lon": lon, "lat": lat})
+
+    def span(
+        self,
+        label: str,
+        start: str,
+        end: str,
+        length_m: float | None = None,
+        kind: str = "underground",
+        via: list[tuple[float, float]] | None = None,
+    ) -> Bundle:
+        line = [self._positions[start]]
+        line += [position(e, n) for e, n in via or []]
+        line.append(self._positions[end])
+        return self._add(
+            "spans",
+            {
+                "label": label,
+                "from": start,
+                "to": end,
+                "kind": kind,
+                "length_m": length_m,
+                "geometry": line,
+            },
+        )
+
+    def closure(self, label: str, at: str, trays: int = 2, slots: int = 24) -> Bundle:
+        return self._add(
+            "closures", {"label": label, "at": at, "trays": trays, "slots_per_tray": slots}
+        )
+
+    def panel(self, label: str, at: str, ports: int = 24) -> Bundle:
+        return self._add(
+            "panels", {"label": label, "at": at, "ports": ports, "connector": "SC", "polish": "APC"}
+        )
+
+    def equipment(self, label: str, at: str, ports: list[str], **extra: Any) -> Bundle:
+        return self._add("equipment", {"label": label, "at": at, "ports": ports, **extra})
+
+    def splitter(self, label: str, at: str, ratio: str, loss_db: float | None = None) -> Bundle:
+        return self._add(
+            "splitters", {"label": label, "at": at, "ratio": ratio, "loss_db": loss_db}
+        )
+
+    def cable(
+        self,
+        label: str,
+        spans: list[str],
+        stations: list[tuple[str, float | None]],
+        units: int = 2,
+        per_unit: int = 12,
+        kind: str = "loose_tube",
+        fiber_type: str = "SM-TEST",
+        slack: list[tuple[str, float]] | None = None,
+    ) -> Bundle:
+        return self._add(
+            "cables",
+            {
+                "label": label,
+                "fiber_type": fiber_type,
+                "construction": {"kind": kind, "units": units, "fibers_per_unit": per_unit},
+                "spans": spans,
+                "stations": [
+                    {"at": at, "mark_m": mark} if mark is not None else {"at": at}
+                    for at, mark in stations
+                ],
+                "slack": [{"at": at, "length_m": n} for at, n in slack] if slack else None,
+            },
+        )
+
+    def splice(
+        self,
+        closure: str,
+        a: str,
+        b: str,
+        tray: int = 1,
+        slot: int = 1,
+        loss_db: float | None = None,
+        method: str = "fusion",
+    ) -> Bundle:
+        return self._add(
+            "splices",
+            {
+                "closure": closure,
+                "a": a,
+                "b": b,
+                "tray": tray,
+                "slot": slot,
+                "method": method,
+                "loss_db": loss_db,
+            },
+        )
+
+    def cut(self, closure: str, fiber: str) -> Bundle:
+        return self._add("cuts", {"closure": closure, "fiber": fiber})
+
+    def terminate(self, fiber: str, port: str, method: str | None = None) -> Bundle:
+        return self._add("terminations", {"fiber": fiber, "port": port, "method": method})
+
+    def jumper(self, a: str, b: str, length_m: float | None = None) -> Bundle:
+        return self._add("jumpers", {"a": a, "b": b, "length_m": length_m})
+
+    def circuit(
+        self,
+        label: str,
+        a: str,
+        z: str | None,
+        status: str = "active",
+        kind: str = "backbone",
+        customer: str | None = None,
+    ) -> Bundle:
+        return self._add(
+            "circuits",
+            {"label": label, "kind": kind, "status": status, "a": a, "z": z, "customer": customer},
+        )
+
+
+def ashgrove() -> Bundle:
+    """A small plant: office AG-CO, handholes AH-1 and AH-2 (a slack coil), cabinet AG-CAB.
+
+    Feeder F-1 (24 strands, marks 0 -> 1020) runs AG-CO -S1 300 m- AH-1 -S2 400 m- AH-2
+    -S3 300 m- AG-CAB, accessed mid-span in closure AC-1 at AH-1 (mark 305) where only strand
+    5 is cut: F-1:5/A is spliced to drop D-1:1 (measured 0.05 dB). D-1 (12 strands, central
+    core, marks 0 -> 123) runs AH-1 -S4 120 m- premises AG-PR.
+    """
+    b = Bundle().fiber_type(SINGLE_MODE)
+    b.structure("AG-CO", 0, kind="central_office").structure("AH-1", 300, kind="handhole")
+    b.structure("AH-2", 700, kind="handhole").structure("AG-CAB", 1000, kind="cabinet")
+    b.structure("AG-PR", 300, 120, kind="customer_premises")
+    b.span("S1", "AG-CO", "AH-1", 300.0).span("S2", "AH-1", "AH-2", 400.0)
+    b.span("S3", "AH-2", "AG-CAB", 300.0).span("S4", "AH-1", "AG-PR", 120.0, kind="aerial")
+    b.closure("AC-1", "AH-1")
+    b.panel("CO-P1", "AG-CO").panel("CAB-P1", "AG-CAB").panel("PR-P1", "AG-PR", ports=2)
+    b.cable(
+        "F-1",
+        ["S1", "S2", "S3"],
+        [("CO-P1", 0.0), ("AC-1", 305.0), ("CAB-P1", 1020.0)],
+        slack=[("AH-2", 12.0)],
+    )
+    b.cable("D-1", ["S4"], [("AC-1", 0.0), ("PR-P1", 123.0)], units=1, kind="central_core")
+    b.splice("AC-1", "F-1:5/A", "D-1:1", loss_db=0.05)
+    for n in range(1, 9):
+        b.terminate(f"F-1:{n}", f"CO-P1:{n}")
+        if n != 5:
+            b.terminate(f"F-1:{n}", f"CAB-P1:{n}")
+    b.terminate("D-1:1", "PR-P1:1", method="field_connector")
+    b.circuit("AG-1", "CO-P1:1", "CAB-P1:1")
+    b.circuit("AG-2", "CO-P1:5", "PR-P1:1", kind="dark_fiber", customer="Ashgrove Kiln Works")
+    return b
