@@ -41,7 +41,8 @@ def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 def _worker_schema() -> str:
-    return "plantdb_test_" + os.environ.get("PYTEST_XDIST_WORKER", "main")
+    # The process id keeps two test runs on one server (two people, two checkouts) apart.
+    return f"plantdb_test_{os.environ.get('PYTEST_XDIST_WORKER', 'main')}_{os.getpid()}"
 
 
 @pytest.fixture(scope="session")

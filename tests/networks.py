@@ -217,3 +217,50 @@ def ashgrove() -> Bundle:
     b.circuit("AG-1", "CO-P1:1", "CAB-P1:1")
     b.circuit("AG-2", "CO-P1:5", "PR-P1:1", kind="dark_fiber", customer="Ashgrove Kiln Works")
     return b
+
+
+def larkspur() -> Bundle:
+    """A splicing yard: closure LC-1 in manhole LK-MH1 (2 trays of 24) where many cables meet.
+
+    Ending at LC-1 from the office panel LK-P1: C-A (4 x 12 loose tube), R-1 (2 ribbons).
+    Starting at LC-1 toward premises panel LK-P2: C-B (4 x 12), R-2 (2 ribbons), M-1 (12
+    multimode, tight-buffered), D-1 (12, central core). C-T (2 x 12) runs LK-P1 -> LC-1 ->
+    LC-2 (manhole LK-MH2, 1 tray of 12) -> LK-P3 mid-span at both closures; C-X (12) runs
+    LC-2 -> LK-P3 and never enters LC-1. Splitters LS-1 (1x8) and LS-2 (1x4) sit in LC-1;
+    LS-2's leg 1 is terminated on port 1 of the manhole panel LK-MP. Recorded already:
+    C-A:1 to C-B:1 in tray 1 slot 1 (fusion, 0.04 dB).
+    """
+    b = Bundle().fiber_type(SINGLE_MODE).fiber_type(MULTIMODE)
+    b.structure("LK-CO", 0, kind="central_office").structure("LK-MH1", 400)
+    b.structure("LK-MH2", 800).structure("LK-PR", 400, 150, kind="customer_premises")
+    b.structure("LK-BLD", 1200, kind="building_entrance")
+    b.span("L1", "LK-CO", "LK-MH1", 400.0).span("L2", "LK-MH1", "LK-MH2", 400.0)
+    b.span("L3", "LK-MH1", "LK-PR", 150.0).span("L4", "LK-MH2", "LK-BLD", 400.0)
+    b.closure("LC-1", "LK-MH1", trays=2, slots=24).closure("LC-2", "LK-MH2", trays=1, slots=12)
+    b.panel("LK-P1", "LK-CO", ports=96).panel("LK-P2", "LK-PR", ports=96)
+    b.panel("LK-P3", "LK-BLD").panel("LK-MP", "LK-MH1", ports=4)
+    b.splitter("LS-1", "LC-1", "1x8").splitter("LS-2", "LC-1", "1x4")
+    for label in ("C-A", "R-1"):
+        kind = "ribbon" if label.startswith("R") else "loose_tube"
+        units = 2 if kind == "ribbon" else 4
+        b.cable(label, ["L1"], [("LK-P1", 0.0), ("LC-1", 410.0)], units=units, kind=kind)
+    b.cable("C-B", ["L3"], [("LC-1", 0.0), ("LK-P2", 160.0)], units=4)
+    b.cable("R-2", ["L3"], [("LC-1", 0.0), ("LK-P2", 160.0)], kind="ribbon")
+    b.cable(
+        "M-1",
+        ["L3"],
+        [("LC-1", 0.0), ("LK-P2", 160.0)],
+        units=1,
+        kind="tight_buffered",
+        fiber_type="MM-TEST",
+    )
+    b.cable("D-1", ["L3"], [("LC-1", 0.0), ("LK-P2", 160.0)], units=1, kind="central_core")
+    b.cable(
+        "C-T",
+        ["L1", "L2", "L4"],
+        [("LK-P1", 0.0), ("LC-1", 405.0), ("LC-2", 810.0), ("LK-P3", 1215.0)],
+    )
+    b.cable("C-X", ["L4"], [("LC-2", 0.0), ("LK-P3", 405.0)], units=1)
+    b.terminate("LS-2:1", "LK-MP:1")
+    b.splice("LC-1", "C-A:1", "C-B:1", loss_db=0.04)
+    return b

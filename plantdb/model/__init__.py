@@ -13,7 +13,7 @@ from plantdb.model.cables import (
     Strand,
     Unit,
 )
-from plantdb.model.circuits import Circuit, CircuitStatus
+from plantdb.model.circuits import Circuit, CircuitPathItem, CircuitStatus
 from plantdb.model.closures import (
     Closure,
     Cut,
@@ -35,6 +35,7 @@ __all__ = [
     "Cable",
     "CableSpan",
     "Circuit",
+    "CircuitPathItem",
     "CircuitStatus",
     "Closure",
     "ConstructionKind",

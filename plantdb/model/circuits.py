@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import enum
 
-from sqlalchemy import ForeignKey, Integer, String, Text
+from sqlalchemy import CheckConstraint, ForeignKey, Index, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from plantdb.model.base import LABEL_LENGTH, Base
@@ -32,3 +32,42 @@ class Circuit(Base):
     z_port_id: Mapped[int | None] = mapped_column(ForeignKey("port.id"), index=True)
     customer: Mapped[str | None] = mapped_column(String(200))
     notes: Mapped[str | None] = mapped_column(Text)
+    # Kept by plantdb.trace.circuits whenever the record changes under the circuit.
+    path_state: Mapped[str | None] = mapped_column(String(16))
+    path_note: Mapped[str | None] = mapped_column(Text)
+
+
+class CircuitPathItem(Base):
+    """One step of a circuit's traced path from A to Z, kept so that "which circuits use this
+    strand, port or splitter" is an indexed lookup rather than a walk of every circuit.
+
+    Derived data: `plantdb.trace.circuits.refresh_circuits` rewrites a circuit's items from a
+    fresh trace whenever the connections under it change, and `plantdb check` verifies them.
+    """
+
+    __tablename__ = "circuit_path_item"
+    __table_args__ = (
+        CheckConstraint("lo_seq IS NULL OR lo_seq <= hi_seq", name="seq_order"),
+        Index("ix_circuit_path_item_strand", "strand_id", "lo_seq", "hi_seq"),
+        Index("ix_circuit_path_item_cable", "cable_id", "lo_index", "hi_index"),
+    )
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    circuit_id: Mapped[int] = mapped_column(
+        ForeignKey("circuit.id", ondelete="CASCADE"), index=True
+    )
+    position: Mapped[int] = mapped_column(Integer)
+    kind: Mapped[str] = mapped_column(String(16))
+    strand_id: Mapped[int | None] = mapped_column(ForeignKey("strand.id", ondelete="CASCADE"))
+    cable_id: Mapped[int | None] = mapped_column(Integer)
+    # The piece of glass used: station seqs and path indexes (spans from the A end), low-high.
+    lo_seq: Mapped[int | None] = mapped_column(Integer)
+    hi_seq: Mapped[int | None] = mapped_column(Integer)
+    lo_index: Mapped[int | None] = mapped_column(Integer)
+    hi_index: Mapped[int | None] = mapped_column(Integer)
+    port_id: Mapped[int | None] = mapped_column(
+        ForeignKey("port.id", ondelete="CASCADE"), index=True
+    )
+    splitter_id: Mapped[int | None] = mapped_column(
+        ForeignKey("splitter.id", ondelete="CASCADE"), index=True
+    )

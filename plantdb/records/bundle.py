@@ -15,6 +15,7 @@ from plantdb.records.bundle_dump import dump_bundle
 from plantdb.records.bundle_load import BundleError, LoadContext
 from plantdb.records.bundle_schema import check_shape
 from plantdb.records.lookup import RecordLookup
+from plantdb.trace.circuits import refresh_circuits
 
 # Sections in the order their references need: places before the cables that run between
 # them, cables before the splices that join them, ports before the circuits that end on them.
@@ -53,28 +54,39 @@ def load_bundle(session: Session, data: Any) -> dict[str, int]:
     for loader in SECTION_LOADERS:
         loader(ctx, data)
     if ctx.problems:
-        raise BundleError(ctx.problems)
+        raise BundleError(ctx.report())
     session.flush()
+    # New connections can complete, re-route or break any circuit: re-trace them all.
+    refresh_circuits(session)
     return ctx.counts
 
 
 def read_bundle_file(path: str | Path) -> Any:
     """Parse a bundle file; a clear refusal for a missing, huge or malformed file."""
     file = Path(path)
+    refused = "bundle not loaded:"
     try:
         size = file.stat().st_size
+        if size > MAX_BUNDLE_BYTES:
+            raise PlantError(
+                f"{refused} {file} is {size} bytes; bundles are limited to {MAX_BUNDLE_BYTES}"
+            )
+        raw = file.read_bytes()
     except OSError as exc:
-        raise PlantError(f"cannot read {file}: {exc.strerror}") from exc
-    if size > MAX_BUNDLE_BYTES:
-        raise PlantError(f"{file} is {size} bytes; bundles are limited to {MAX_BUNDLE_BYTES}")
+        raise PlantError(f"{refused} cannot read {file}: {exc.strerror or exc}") from exc
     try:
-        with file.open("rb") as handle:
-            return json.load(handle)
+        # Strictly UTF-8 (RFC 8259 section 8.1), a byte order mark allowed; json.loads would
+        # otherwise guess UTF-16 or UTF-32 from the first bytes.
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise PlantError(f"{file} is not UTF-8 text: {exc}") from exc
+        raise PlantError(
+            f"{refused} {file} is not UTF-8 text ({exc.reason} at byte {exc.start})"
+        ) from exc
+    try:
+        return json.loads(text)
     except json.JSONDecodeError as exc:
         raise PlantError(
-            f"{file}: not JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})"
+            f"{refused} {file} is not JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})"
         ) from exc
-    except OSError as exc:
-        raise PlantError(f"cannot read {file}: {exc.strerror}") from exc
+    except RecursionError as exc:
+        raise PlantError(f"{refused} {file} is nested too deeply to be a bundle") from exc

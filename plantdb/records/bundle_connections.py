@@ -80,8 +80,13 @@ def _splice_ends(ctx: LoadContext, item: dict[str, Any]) -> tuple[EndRef, EndRef
         raise PlantError(f"closure: no closure is labelled {item['closure']}")
     a = resolve_splice_end(ctx.lookup, item["a"], closure)
     b = resolve_splice_end(ctx.lookup, item["b"], closure)
-    if a.key == b.key or (a.strand_id is not None and a.strand_id == b.strand_id):
+    if a.key == b.key:
         raise PlantError(f"{a.address} would be spliced to itself")
+    if a.strand_id is not None and a.strand_id == b.strand_id:
+        raise PlantError(
+            f"{a.address} and {b.address} are pieces of one strand; a strand is not spliced"
+            " to itself"
+        )
     tray = ctx.lookup.trays(closure.id).get(item["tray"])
     if tray is None:
         count = len(ctx.lookup.trays(closure.id))

@@ -45,6 +45,8 @@ from plantdb.records.placement import chain_spans
 GEOMETRY_TOLERANCE_M = 50.0
 MAX_REPORTED = 200
 _RATIO = re.compile(r"^([12])\s*[xX]\s*(\d+)$")
+_NAMED_PATH = re.compile(r"^(\w+\[\d+\]) \((.+)\)$")
+_NAMES_NOTHING = re.compile(r" (?:is labelled|is named) (.+)$")
 
 
 class BundleError(PlantError):
@@ -66,23 +68,54 @@ class LoadContext:
     lookup: RecordLookup
     problems: list[str] = field(default_factory=list)
     counts: dict[str, int] = field(default_factory=dict)
-    seen: dict[str, set[str]] = field(default_factory=dict)
+    # Labels this bundle has claimed so far, by namespace: label -> the path that claimed it.
+    seen: dict[str, dict[str, str]] = field(default_factory=dict)
+    # Labelled items refused for a problem (label -> path). A later item naming one of them is
+    # not wrong itself, so instead of "no cable is labelled F-1" for a cable the bundle plainly
+    # holds, it is listed once on a follow-on line.
+    refused: dict[str, str] = field(default_factory=dict)
+    follow_ons: dict[str, list[str]] = field(default_factory=dict)
 
     def problem(self, path: str, message: str) -> None:
+        item = _NAMED_PATH.match(path)
+        if item:
+            self.refused.setdefault(item.group(2), item.group(1))
+        missing = _NAMES_NOTHING.search(message)
+        if missing and missing.group(1) in self.refused:
+            self.follow_ons.setdefault(missing.group(1), []).append(path)
+            return
         self.problems.append(f"{path}: {message}")
 
-    def claim(self, kind: str, label: str, path: str, exists: bool) -> bool:
-        """Record a new label; a problem if the record or this bundle already has it."""
-        taken = self.seen.setdefault(kind, set())
-        if exists or label in taken:
-            self.problem(path, f"{label} already exists")
+    def report(self) -> list[str]:
+        """Every problem found, then one line per refused item that other items name."""
+        lines = list(self.problems)
+        for label, paths in self.follow_ons.items():
+            more = f" and {len(paths) - 3} more" if len(paths) > 3 else ""
+            lines.append(
+                f"{', '.join(paths[:3])}{more}: name {label}, which is refused"
+                f" ({self.refused[label]})"
+            )
+        return lines
+
+    def claim(self, kind: str, label: str, path: str, exists: bool | str) -> bool:
+        """Record a new label; a problem if the record or this bundle already has it.
+
+        `exists` is true (or names what the record already calls `label`) when it is taken.
+        """
+        taken = self.seen.setdefault(kind, {})
+        if label in taken:
+            self.problem(path, f"label {label} is already used by {taken[label]} of this bundle")
             return False
-        taken.add(label)
+        if exists:
+            what = f" (a {exists})" if isinstance(exists, str) else ""
+            self.problem(path, f"label {label} already exists in the record{what}")
+            return False
+        taken[label] = path
         return True
 
     def claim_place(self, label: str, path: str) -> bool:
         """Cables, closures, panels, equipment and splitters share one namespace."""
-        return self.claim("place", label, path, self.lookup.place_kind(label) is not None)
+        return self.claim("place", label, path, self.lookup.place_kind(label) or False)
 
     def insert_ids(self, model: Any, rows: list[dict[str, Any]]) -> list[int]:
         """Insert rows in one statement; their new ids in the rows' order."""
@@ -190,8 +223,8 @@ def _span_row(ctx: LoadContext, path: str, item: dict[str, Any]) -> dict[str, An
             key = "from" if which == "first" else "to"
             ctx.problem(
                 where,
-                f"geometry's {which} position is {gap:.0f} m from {key} structure"
-                f" {item[key]} (allowed {GEOMETRY_TOLERANCE_M:g} m; is the line drawn"
+                f'geometry\'s {which} position is {gap:.0f} m from {item[key]}, its "{key}"'
+                f" structure (allowed {GEOMETRY_TOLERANCE_M:g} m; is the line drawn"
                 " backwards?)",
             )
             return None

@@ -16,6 +16,16 @@ VERSION = 1
 
 Check = Callable[[Any, str], list[str]]
 
+# The largest value a PostgreSQL INTEGER column holds; a bigger whole number would fail in the
+# database instead of here, without the item's path.
+INTEGER_MAX = 2**31 - 1
+# Counts that generate rows (trays, ports) stop far above anything made, so a typo such as
+# 10**9 trays is refused rather than writing a billion rows (trade: large closures hold tens
+# of trays, high-density frames a few thousand ports).
+MAX_TRAYS = 1000
+MAX_SLOTS_PER_TRAY = 1000
+MAX_PANEL_PORTS = 10_000
+
 
 def _text(value: Any, path: str) -> list[str]:
     if not isinstance(value, str) or not value.strip():
@@ -23,6 +33,18 @@ def _text(value: Any, path: str) -> list[str]:
     if len(value) > 200:
         return [f"{path}: text longer than 200 characters"]
     return []
+
+
+def _text_up_to(length: int) -> Check:
+    """Non-empty text that fits a column of `length` characters."""
+
+    def inner(value: Any, path: str) -> list[str]:
+        errors = _text(value, path)
+        if not errors and len(value) > length:
+            return [f"{path}: text longer than {length} characters"]
+        return errors
+
+    return inner
 
 
 def _label(value: Any, path: str) -> list[str]:
@@ -57,12 +79,24 @@ def _number(minimum: float | None = None, strict: bool = False) -> Check:
     return inner
 
 
-def _integer(minimum: int) -> Check:
+def _between(low: float, high: float) -> Check:
+    def inner(value: Any, path: str) -> list[str]:
+        errors = _number()(value, path)
+        if not errors and not low <= value <= high:
+            return [f"{path}: must be from {low:g} to {high:g}, got {value!r}"]
+        return errors
+
+    return inner
+
+
+def _integer(minimum: int, maximum: int = INTEGER_MAX) -> Check:
     def inner(value: Any, path: str) -> list[str]:
         if isinstance(value, bool) or not isinstance(value, int):
             return [f"{path}: expected a whole number, got {value!r}"]
         if value < minimum:
             return [f"{path}: must be at least {minimum}, got {value}"]
+        if value > maximum:
+            return [f"{path}: must be at most {maximum}, got {value}"]
         return []
 
     return inner
@@ -153,7 +187,7 @@ SECTIONS: dict[str, Check] = {
         {
             "name": (_label, True),
             "mode": (_choice("single-mode", "multimode"), True),
-            "standard": (_optional(_text), False),
+            "standard": (_optional(_text_up_to(64)), False),
             "attenuation_db_per_km": (_per_wavelength(_ATTENUATION), False),
             "group_index": (_per_wavelength(_number(1.0)), False),
             "core_index": (_optional(_number(1.0)), False),
@@ -167,8 +201,8 @@ SECTIONS: dict[str, Check] = {
         {
             "label": (_label, True),
             "kind": (_text, True),
-            "lon": (_number(), True),
-            "lat": (_number(), True),
+            "lon": (_between(-180, 180), True),
+            "lat": (_between(-90, 90), True),
             "name": (_optional(_text), False),
             "notes": _NOTES,
         }
@@ -195,9 +229,9 @@ SECTIONS: dict[str, Check] = {
         {
             "label": (_label, True),
             "at": (_label, True),
-            "trays": (_integer(0), True),
-            "slots_per_tray": (_integer(1), False),
-            "tray_slots": (_optional(_list_of(_integer(1))), False),
+            "trays": (_integer(0, MAX_TRAYS), True),
+            "slots_per_tray": (_integer(1, MAX_SLOTS_PER_TRAY), False),
+            "tray_slots": (_optional(_list_of(_integer(1, MAX_SLOTS_PER_TRAY))), False),
             "notes": _NOTES,
         }
     ),
@@ -205,10 +239,10 @@ SECTIONS: dict[str, Check] = {
         {
             "label": (_label, True),
             "at": (_label, True),
-            "ports": (_integer(1), True),
-            "connector": (_optional(_text), False),
+            "ports": (_integer(1, MAX_PANEL_PORTS), True),
+            "connector": (_optional(_text_up_to(16)), False),
             "polish": (_optional(_choice("UPC", "APC", "PC")), False),
-            "rack": (_optional(_text), False),
+            "rack": (_optional(_text_up_to(64)), False),
             "notes": _NOTES,
         }
     ),
@@ -216,11 +250,11 @@ SECTIONS: dict[str, Check] = {
         {
             "label": (_label, True),
             "at": (_label, True),
-            "ports": (_list_of(_text, 1), True),
+            "ports": (_list_of(_text_up_to(32), 1), True),
             "role": (_optional(_text), False),
             "tx_dbm": (_optional(_number()), False),
             "rx_sensitivity_dbm": (_optional(_number()), False),
-            "rack": (_optional(_text), False),
+            "rack": (_optional(_text_up_to(64)), False),
             "notes": _NOTES,
         }
     ),
@@ -276,7 +310,7 @@ SECTIONS: dict[str, Check] = {
             "method": (_choice("fusion", "mechanical", "mass_fusion"), False),
             "loss_db": (_optional(_number()), False),
             "spliced_on": (_optional(_date), False),
-            "spliced_by": (_optional(_text), False),
+            "spliced_by": (_optional(_text_up_to(100)), False),
         }
     ),
     "terminations": _object(
@@ -292,7 +326,7 @@ SECTIONS: dict[str, Check] = {
     "circuits": _object(
         {
             "label": (_label, True),
-            "kind": (_optional(_text), False),
+            "kind": (_optional(_text_up_to(40)), False),
             "status": (_choice("planned", "reserved", "active", "out_of_service", "retired"), True),
             "a": (_text, True),
             "z": (_optional(_text), False),
@@ -303,11 +337,11 @@ SECTIONS: dict[str, Check] = {
     "loss_tests": _object(
         {
             "circuit": (_label, True),
-            "wavelength_nm": (_integer(600), True),
+            "wavelength_nm": (_integer(600, 1700), True),
             "measured_db": (_number(), True),
-            "direction": (_optional(_text), False),
+            "direction": (_optional(_text_up_to(16)), False),
             "tested_on": (_optional(_date), False),
-            "tested_by": (_optional(_text), False),
+            "tested_by": (_optional(_text_up_to(100)), False),
             "notes": _NOTES,
         }
     ),
@@ -321,7 +355,9 @@ def check_shape(data: Any, limit: int = 200) -> list[str]:
     errors: list[str] = []
     if data.get("format") != FORMAT:
         errors.append(f"format: expected {FORMAT!r}, got {data.get('format')!r}")
-    if data.get("version") != VERSION:
+    version = data.get("version")
+    # `True == 1` and `1.0 == 1` in Python; only the whole number 1 is version 1.
+    if type(version) is not int or version != VERSION:
         errors.append(f"version: expected {VERSION}, got {data.get('version')!r}")
     for key, value in data.items():
         if key in ("format", "version"):

@@ -189,9 +189,11 @@ def resolve_cut(lookup: RecordLookup, text: object, closure: PlaceInfo) -> EndRe
         raise PlantError(
             f"{address}: cable {cable.label} has no station in closure {closure.label}"
         )
-    if cable.end_side(station) is not None:
+    end_side = cable.end_side(station)
+    if end_side is not None:
+        which = "starts" if end_side == "B" else "ends"
         raise PlantError(
-            f"{address}: cable {cable.label} ends at {closure.label}; strands are cut only at a"
-            " mid-span access"
+            f"{address}: cable {cable.label} {which} at {closure.label}; strands are cut only"
+            " at a mid-span access"
         )
     return _strand_end(lookup, cable, station, number, "A", str(address))

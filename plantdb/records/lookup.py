@@ -409,6 +409,23 @@ class RecordLookup:
         for slot in slots:
             self._used[("slot", tray_id, slot)] = "taken"
 
+    def load_closure_slots(self, closure_id: int) -> None:
+        """Learn which slots are taken in every tray of a closure, in one query.
+
+        A splice sheet touches hundreds of trays; asking tray by tray costs a query each.
+        """
+        tray_ids = [tray_id for tray_id, _capacity in self.trays(closure_id).values()]
+        pending = [t for t in tray_ids if ("tray", t) not in self._loaded_usage]
+        if not pending:
+            return
+        rows = self.session.execute(
+            select(Splice.tray_id, Splice.slot).where(Splice.closure_id == closure_id)
+        )
+        for tray_id, slot in rows:
+            if ("tray", tray_id) not in self._loaded_usage:
+                self._used[("slot", tray_id, slot)] = "taken"
+        self._loaded_usage.update(("tray", t) for t in pending)
+
     def is_cut(self, cable_id: int, strand_id: int, station_id: int) -> bool:
         self._load_once(("cable", cable_id), self._cable_usage)
         return (strand_id, station_id) in self._cuts

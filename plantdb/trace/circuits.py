@@ -1,0 +1,155 @@
+"""Circuits over the plant: their paths kept indexed, and which strands are lit.
+
+A strand is lit when an active circuit's path uses it. Walking every circuit to answer that
+would cost the whole plant per question, so each circuit's traced path is kept as rows of
+`circuit_path_item` (the strands and the piece of each it uses, the ports, the splitters) and
+rewritten whenever the connections under the circuit change. Any service that changes
+splices, cuts, terminations or jumpers calls `refresh_affected` in the same transaction.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from typing import Any
+
+from sqlalchemy import delete, insert, or_, select, update
+from sqlalchemy.orm import Session
+
+from plantdb.errors import PlantError
+from plantdb.model import Circuit, CircuitPathItem, CircuitStatus
+from plantdb.trace.elements import TracedPath
+from plantdb.trace.reader import PlantReader
+from plantdb.trace.tracing import circuit_path
+
+COMPLETE = "complete"
+INCOMPLETE = "incomplete"
+NO_Z = "no_z"
+RECORDS_ERROR = "records_error"
+
+
+def _items(reader: PlantReader, circuit_id: int, path: TracedPath) -> list[dict[str, Any]]:
+    rows = []
+    for position, element in enumerate(path.elements):
+        row: dict[str, Any] = {"circuit_id": circuit_id, "position": position, "kind": element.kind}
+        refs = element.refs
+        if element.kind == "fiber":
+            cable = reader.cable(refs["cable_id"])
+            seqs = sorted((refs["from_seq"], refs["to_seq"]))
+            index = {s.seq: s.path_index for s in cable.stations}
+            row.update(
+                strand_id=refs["strand_id"],
+                cable_id=refs["cable_id"],
+                lo_seq=seqs[0],
+                hi_seq=seqs[1],
+                lo_index=index[seqs[0]],
+                hi_index=index[seqs[1]],
+            )
+        elif "port_id" in refs:
+            row["port_id"] = refs["port_id"]
+        elif element.kind == "splitter":
+            row["splitter_id"] = refs["splitter_id"]
+        else:
+            continue
+        rows.append(row)
+    return rows
+
+
+def refresh_circuits(session: Session, circuit_ids: Iterable[int] | None = None) -> int:
+    """Re-trace circuits (all when None) and rewrite their path items; how many were done."""
+    query = select(Circuit.id, Circuit.a_port_id, Circuit.z_port_id)
+    wanted = None if circuit_ids is None else sorted(set(circuit_ids))
+    if wanted is not None:
+        if not wanted:
+            return 0
+        query = query.where(Circuit.id.in_(wanted))
+    circuits = session.execute(query).all()
+    reader = PlantReader(session)
+    ids = [c[0] for c in circuits]
+    for chunk in range(0, len(ids), 500):
+        session.execute(
+            delete(CircuitPathItem).where(CircuitPathItem.circuit_id.in_(ids[chunk : chunk + 500]))
+        )
+    rows: list[dict[str, Any]] = []
+    states = []
+    for circuit_id, a_port, z_port in circuits:
+        state, note = COMPLETE, None
+        try:
+            path, every = circuit_path(reader, a_port, z_port)
+        except PlantError as exc:
+            path, state, note = None, RECORDS_ERROR, exc.message
+        else:
+            if z_port is None:
+                state, note = NO_Z, "no Z end recorded"
+            elif path is None:
+                stops = ", ".join(sorted({f"{p.end.kind} at {p.end.at}" for p in every}))
+                state, note = INCOMPLETE, f"the walk from A stops at {stops}"
+        if path is not None:
+            rows += _items(reader, circuit_id, path)
+        states.append({"id": circuit_id, "path_state": state, "path_note": note})
+    if rows:
+        session.execute(insert(CircuitPathItem), rows)
+    if states:
+        session.execute(update(Circuit), states)
+    return len(circuits)
+
+
+def refresh_affected(
+    session: Session,
+    strand_ids: Iterable[int] = (),
+    port_ids: Iterable[int] = (),
+    splitter_ids: Iterable[int] = (),
+) -> int:
+    """Re-trace the circuits whose paths touch these, and every circuit not yet complete
+    (a new connection may complete it)."""
+    strands, ports, splitters = set(strand_ids), set(port_ids), set(splitter_ids)
+    conditions = [Circuit.path_state.is_(None), Circuit.path_state != COMPLETE]
+    touched: set[int] = set(session.scalars(select(Circuit.id).where(or_(*conditions))))
+    for column, values in (
+        (CircuitPathItem.strand_id, strands),
+        (CircuitPathItem.port_id, ports),
+        (CircuitPathItem.splitter_id, splitters),
+    ):
+        ordered = sorted(values)
+        for chunk in range(0, len(ordered), 500):
+            touched.update(
+                session.scalars(
+                    select(CircuitPathItem.circuit_id).where(
+                        column.in_(ordered[chunk : chunk + 500])
+                    )
+                )
+            )
+    return refresh_circuits(session, touched)
+
+
+def mark_lit(session: Session, paths: list[TracedPath]) -> None:
+    """Mark each fiber element (and port) that an active circuit's path uses, naming them."""
+    strands = {e.refs["strand_id"] for p in paths for e in p.elements if e.kind == "fiber"}
+    ports = {e.refs["port_id"] for p in paths for e in p.elements if "port_id" in e.refs}
+    if not strands and not ports:
+        return
+    rows = session.execute(
+        select(
+            CircuitPathItem.strand_id,
+            CircuitPathItem.lo_seq,
+            CircuitPathItem.hi_seq,
+            CircuitPathItem.port_id,
+            Circuit.label,
+            Circuit.status,
+        )
+        .join(Circuit, Circuit.id == CircuitPathItem.circuit_id)
+        .where(or_(CircuitPathItem.strand_id.in_(strands), CircuitPathItem.port_id.in_(ports)))
+    ).all()
+    for path in paths:
+        for element in path.elements:
+            on = []
+            for strand_id, lo, hi, port_id, label, status in rows:
+                if element.kind == "fiber" and strand_id == element.refs["strand_id"]:
+                    a, b = sorted((element.refs["from_seq"], element.refs["to_seq"]))
+                    if lo <= a and b <= hi:
+                        on.append((label, str(status)))
+                elif port_id is not None and port_id == element.refs.get("port_id"):
+                    on.append((label, str(status)))
+            if element.kind in ("fiber", "port", "equipment"):
+                unique = sorted(set(on))
+                element.fields["circuits"] = [{"label": lb, "status": st} for lb, st in unique]
+                element.fields["lit"] = any(st == CircuitStatus.ACTIVE.value for _l, st in unique)
