@@ -9,6 +9,8 @@ import click
 
 from plantdb.cli import Invocation, cli, plant_command
 from plantdb.db import run_in_transaction
+from plantdb.trace.dispatch import impact_document, live_document, locate_document
+from plantdb.trace.dispatch_text import impact_text, live_text, locate_text
 from plantdb.trace.health import check_record
 from plantdb.trace.loss import LossOptions
 from plantdb.trace.service import loss_report, trace_document
@@ -100,3 +102,36 @@ def check_command(run: Invocation) -> None:
     run.emit(document, _check_text)
     if not document["ok"]:
         sys.exit(1)
+
+
+@plant_command(cli, "live")
+@click.option("--closure", required=True, metavar="LABEL", help="The closure a crew will open.")
+def live_command(run: Invocation, closure: str) -> None:
+    """Every strand through a closure, live ones first, with the circuits on each."""
+    with run.database().read() as session:
+        document = live_document(session, closure)
+    run.emit(document, live_text)
+
+
+@plant_command(cli, "impact")
+@click.option("--span", metavar="LABEL", help="A span that was cut.")
+@click.option("--structure", metavar="LABEL", help="A structure where everything was cut.")
+def impact_command(run: Invocation, span: str | None, structure: str | None) -> None:
+    """What a cut takes down: cables, strands, circuits (active first) and customers."""
+    with run.database().read() as session:
+        document = impact_document(session, span=span, structure=structure)
+    run.emit(document, impact_text)
+
+
+@plant_command(cli, "locate")
+@click.option("--port", required=True, metavar="PANEL:PORT", help="Where the OTDR was connected.")
+@click.option("--distance-m", required=True, type=float, help="The distance the OTDR reports.")
+@click.option("--wavelength", type=int, metavar="NM", help="OTDR wavelength (default 1310 SM).")
+@click.option("--otdr-index", type=float, help="The group index the OTDR was set to.")
+def locate_command(
+    run: Invocation, port: str, distance_m: float, wavelength: int | None, otdr_index: float | None
+) -> None:
+    """Where on the street an OTDR event lies: cable, sheath mark, structures, a range."""
+    with run.database().read() as session:
+        document = locate_document(session, port, distance_m, wavelength, otdr_index)
+    run.emit(document, locate_text)
