@@ -16,12 +16,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import select
-
 from plantdb import catalogue, geo
 from plantdb.addresses import parse_address
 from plantdb.errors import PlantError, RecordsError
-from plantdb.model import FiberTypeWavelength, Structure
 from plantdb.safety import LOCATE_CAUTION
 from plantdb.trace.elements import Element
 from plantdb.trace.lengths import piece_layout
@@ -57,12 +54,7 @@ class Leg:
 
 
 def _group_index(reader: PlantReader, fiber_type_id: int, nm: int) -> float:
-    recorded = reader.session.scalar(
-        select(FiberTypeWavelength.group_index).where(
-            FiberTypeWavelength.fiber_type_id == fiber_type_id,
-            FiberTypeWavelength.wavelength_nm == nm,
-        )
-    )
+    recorded = reader.fiber_values(fiber_type_id, nm)[2]
     if recorded is not None:
         return float(recorded)
     name, _mode, standard = reader.fiber_mode(fiber_type_id)
@@ -70,13 +62,6 @@ def _group_index(reader: PlantReader, fiber_type_id: int, nm: int) -> float:
         return catalogue.fiber_class(standard or "").group_index[nm].value
     except (catalogue.CatalogueLookupError, KeyError):
         raise RecordsError(f"fiber type {name} has no group index at {nm} nm") from None
-
-
-def _structure_point(reader: PlantReader, label: str) -> list[float]:
-    row = reader.session.execute(
-        select(Structure.lon, Structure.lat).where(Structure.label == label)
-    ).one()
-    return [row[0], row[1]]
 
 
 def _legs(reader: PlantReader, branch: Branch, nm: int, otdr_index: float | None) -> list[Leg]:
@@ -107,7 +92,7 @@ def _legs(reader: PlantReader, branch: Branch, nm: int, otdr_index: float | None
                         stretch.kind,
                         stretch.fiber_m,
                         scale,
-                        [_structure_point(reader, where)],
+                        [reader.structure_point(where)],
                         0.0,
                         (where, where),
                         element,

@@ -16,11 +16,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import select
-
 from plantdb import catalogue
 from plantdb.errors import RecordsError
-from plantdb.model import FiberTypeWavelength
 from plantdb.trace.elements import Element, TracedPath
 from plantdb.trace.reader import PlantReader
 
@@ -62,17 +59,8 @@ class LossCounter:
 
     def _fiber_value(self, fiber_type_id: int, nm: int, basis: str) -> Allowance:
         name, _mode, standard = self.reader.fiber_mode(fiber_type_id)
-        column = (
-            FiberTypeWavelength.attenuation_max
-            if basis == "max"
-            else FiberTypeWavelength.attenuation_typical
-        )
-        recorded = self.reader.session.scalar(
-            select(column).where(
-                FiberTypeWavelength.fiber_type_id == fiber_type_id,
-                FiberTypeWavelength.wavelength_nm == nm,
-            )
-        )
+        values = self.reader.fiber_values(fiber_type_id, nm)
+        recorded = values[0] if basis == "max" else values[1]
         if recorded is not None:
             return Allowance(recorded, f"fiber type {name} (record), {basis} at {nm} nm")
         if standard:
