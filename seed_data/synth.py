@@ -8,6 +8,7 @@ them and finds the same (a test holds the generator to that).
 
 from __future__ import annotations
 
+import json
 import random
 import sys
 from collections import defaultdict
@@ -272,6 +273,8 @@ def run_synth(
         synth.flush()
         if progress:
             progress(t + 1, plan.trunks)
+    writer.write("setting", ("key", "value"),
+                 [("synth", json.dumps({"fibers": fibers, "seed": seed, "generator": 1}))])
     writer.finish()
     return {
         "fibers_asked": fibers,

@@ -27,7 +27,7 @@ from plantdb.model.closures import (
     Tray,
 )
 from plantdb.model.geography import Route, RouteSpan, Span, SpanKind, Structure, StructureKind
-from plantdb.model.measurements import LossTest
+from plantdb.model.measurements import LossTest, Setting
 from plantdb.model.terminals import Equipment, EquipmentRole, Jumper, Panel, Port
 
 __all__ = [
@@ -52,6 +52,7 @@ __all__ = [
     "Port",
     "Route",
     "RouteSpan",
+    "Setting",
     "Side",
     "SlackCoil",
     "Span",

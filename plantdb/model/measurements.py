@@ -26,3 +26,12 @@ class LossTest(Base):
     tested_on: Mapped[dt.date | None] = mapped_column(Date)
     tested_by: Mapped[str | None] = mapped_column(String(100))
     notes: Mapped[str | None] = mapped_column(Text)
+
+
+class Setting(Base):
+    """A named value the record keeps about itself (how a synthetic plant was built, ...)."""
+
+    __tablename__ = "setting"
+
+    key: Mapped[str] = mapped_column(String(64), primary_key=True)
+    value: Mapped[str] = mapped_column(Text)

@@ -9,6 +9,7 @@ splices, cuts, terminations or jumpers calls `refresh_affected` in the same tran
 
 from __future__ import annotations
 
+from collections import defaultdict
 from collections.abc import Iterable
 from typing import Any
 
@@ -139,17 +140,25 @@ def mark_lit(session: Session, paths: list[TracedPath]) -> None:
         .join(Circuit, Circuit.id == CircuitPathItem.circuit_id)
         .where(or_(CircuitPathItem.strand_id.in_(strands), CircuitPathItem.port_id.in_(ports)))
     ).all()
+    by_strand: dict[int, list[tuple[int, int, str, str]]] = defaultdict(list)
+    by_port: dict[int, list[tuple[str, str]]] = defaultdict(list)
+    for strand_id, lo, hi, port_id, label, status in rows:
+        if strand_id is not None:
+            by_strand[strand_id].append((lo or 0, hi or 0, label, str(status)))
+        elif port_id is not None:
+            by_port[port_id].append((label, str(status)))
     for path in paths:
         for element in path.elements:
-            on = []
-            for strand_id, lo, hi, port_id, label, status in rows:
-                if element.kind == "fiber" and strand_id == element.refs["strand_id"]:
-                    a, b = sorted((element.refs["from_seq"], element.refs["to_seq"]))
-                    if lo <= a and b <= hi:
-                        on.append((label, str(status)))
-                elif port_id is not None and port_id == element.refs.get("port_id"):
-                    on.append((label, str(status)))
-            if element.kind in ("fiber", "port", "equipment"):
-                unique = sorted(set(on))
-                element.fields["circuits"] = [{"label": lb, "status": st} for lb, st in unique]
-                element.fields["lit"] = any(st == CircuitStatus.ACTIVE.value for _l, st in unique)
+            if element.kind == "fiber":
+                a, b = sorted((element.refs["from_seq"], element.refs["to_seq"]))
+                on = {
+                    (label, status)
+                    for lo, hi, label, status in by_strand.get(element.refs["strand_id"], [])
+                    if lo <= a and b <= hi
+                }
+            elif element.kind in ("port", "equipment"):
+                on = set(by_port.get(element.refs["port_id"], []))
+            else:
+                continue
+            element.fields["circuits"] = [{"label": lb, "status": st} for lb, st in sorted(on)]
+            element.fields["lit"] = any(st == CircuitStatus.ACTIVE.value for _l, st in on)

@@ -73,8 +73,7 @@ def piece_layout(cable: CableRow, a: StationRow, b: StationRow) -> tuple[list[St
 
 def piece_length(cable: CableRow, a: StationRow, b: StationRow) -> tuple[float, str]:
     """Fiber length between two stations of a cable, and where the figure came from."""
+    if a.mark_m is not None and b.mark_m is not None:
+        return abs(b.mark_m - a.mark_m), "sheath marks"
     stretches, source = piece_layout(cable, a, b)
-    if source == "sheath marks":
-        assert a.mark_m is not None and b.mark_m is not None
-        return abs(b.mark_m - a.mark_m), source
     return sum(s.fiber_m for s in stretches), source

@@ -52,14 +52,13 @@ SQL = {
     "cable_id": "SELECT id FROM cable WHERE label = ?",
     "strand_id": "SELECT id FROM strand WHERE cable_id = ? AND number = ?",
     "circuit": "SELECT id, status, a_port_id, z_port_id, customer FROM circuit WHERE label = ?",
-    "cable": "SELECT label, units, fibers_per_unit, construction, fiber_type_id FROM cable"
-    " WHERE id = ?",
-    "stations": "SELECT s.id, s.seq, COALESCE(c.label, p.label), s.closure_id, t.label,"
-    " s.path_index, s.mark_m FROM station s"
+    "cable": "SELECT k.label, k.units, k.fibers_per_unit, k.construction, k.fiber_type_id,"
+    " s.id, s.seq, COALESCE(c.label, p.label), s.closure_id, t.label, s.path_index, s.mark_m"
+    " FROM cable k JOIN station s ON s.cable_id = k.id"
     " LEFT JOIN closure c ON c.id = s.closure_id"
     " LEFT JOIN panel p ON p.id = s.panel_id"
     " JOIN structure t ON t.id = COALESCE(c.structure_id, p.structure_id)"
-    " WHERE s.cable_id = ? ORDER BY s.seq",
+    " WHERE k.id = ? ORDER BY s.seq",
     "spans": "SELECT sp.id, sp.label, sp.kind, COALESCE(sp.surveyed_length_m,"
     " sp.geodesic_length_m), cs.reversed, a.label, b.label, sp.geometry"
     " FROM cable_span cs JOIN span sp ON sp.id = cs.span_id"
@@ -173,19 +172,25 @@ class PlantReader:
         return self._cables[cable_id]
 
     def _load_cable(self, cable_id: int) -> CableRow:
-        label, units, per_unit, construction, fiber_type = self.row("cable", cable_id)
+        rows = self.rows("cable", cable_id)
+        label, units, per_unit, construction, fiber_type = rows[0][:5]
         cable = CableRow(cable_id, label, units, per_unit, construction, fiber_type)
         cable.stations = [
-            StationRow(r[0], r[1], r[2], r[3] is not None, r[4], r[5], r[6])
-            for r in self.rows("stations", cable_id)
+            StationRow(r[5], r[6], r[7], r[8] is not None, r[9], r[10], r[11]) for r in rows
         ]
-        for r in self.rows("spans", cable_id):
+        cable._fill = self._fill_cable
+        return cable
+
+    def _fill_cable(self, cable: CableRow) -> None:
+        """Read a cable's spans and slack coils (only when a layout needs them)."""
+        spans = []
+        for r in self.rows("spans", cable.id):
             flipped = bool(r[4])
             first, last = (r[6], r[5]) if flipped else (r[5], r[6])
             geometry = json.loads(r[7]) if isinstance(r[7], str) else r[7]
-            cable.spans.append(SpanRow(r[0], r[1], r[2], r[3], flipped, first, last, geometry))
-        cable.coils = [(r[0], r[1], r[2]) for r in self.rows("coils", cable_id)]
-        return cable
+            spans.append(SpanRow(r[0], r[1], r[2], r[3], flipped, first, last, geometry))
+        cable._spans = spans
+        cable._coils = [(r[0], r[1], r[2]) for r in self.rows("coils", cable.id)]
 
     def strand(self, strand_id: int) -> tuple[CableRow, int]:
         """(cable, strand number) of a strand."""

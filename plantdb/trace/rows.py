@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 
@@ -30,6 +31,9 @@ class SpanRow:
 
 @dataclass
 class CableRow:
+    """A cable as the walk sees it. Its spans and coils are read only when a length or a
+    position on the street needs them (marks alone give a piece's length)."""
+
     id: int
     label: str
     units: int
@@ -37,9 +41,41 @@ class CableRow:
     construction: str
     fiber_type_id: int
     stations: list[StationRow] = field(default_factory=list)
-    spans: list[SpanRow] = field(default_factory=list)
+    _spans: list[SpanRow] | None = None
     # (path index, structure label, length) of each slack coil
-    coils: list[tuple[int, str, float]] = field(default_factory=list)
+    _coils: list[tuple[int, str, float]] | None = None
+    _fill: Callable[[CableRow], None] | None = None
+
+    def _load(self) -> None:
+        if self._spans is None:
+            if self._fill is not None:
+                self._fill(self)
+            self._spans = self._spans if self._spans is not None else []
+            self._coils = self._coils if self._coils is not None else []
+
+    @property
+    def spans(self) -> list[SpanRow]:
+        self._load()
+        assert self._spans is not None
+        return self._spans
+
+    @spans.setter
+    def spans(self, value: list[SpanRow]) -> None:
+        self._spans = value
+        if self._coils is None:
+            self._coils = []
+
+    @property
+    def coils(self) -> list[tuple[int, str, float]]:
+        self._load()
+        assert self._coils is not None
+        return self._coils
+
+    @coils.setter
+    def coils(self, value: list[tuple[int, str, float]]) -> None:
+        self._coils = value
+        if self._spans is None:
+            self._spans = []
 
     def station(self, station_id: int) -> StationRow:
         return next(s for s in self.stations if s.id == station_id)

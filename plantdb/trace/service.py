@@ -6,6 +6,7 @@ from typing import Any
 
 from sqlalchemy.orm import Session
 
+from plantdb.errors import PlantError
 from plantdb.trace.budget import loss_document
 from plantdb.trace.circuits import mark_lit
 from plantdb.trace.loss import LossOptions
@@ -24,3 +25,21 @@ def loss_report(session: Session, kind: str, value: str, options: LossOptions) -
     """The contract's loss document for a circuit or a port."""
     reader = PlantReader(session)
     return loss_document(reader, trace(reader, kind, value), value, options)
+
+
+def trace_with_loss(
+    session: Session, kind: str, value: str, options: LossOptions
+) -> tuple[dict[str, Any], dict[str, Any] | None]:
+    """The trace and, where the path allows one, its loss document, from a single walk.
+
+    The loss is None when it cannot be counted (a circuit that does not reach Z, a path with
+    a records error); the trace still shows where the walk goes.
+    """
+    reader = PlantReader(session)
+    result = trace(reader, kind, value)
+    mark_lit(session, result.paths)
+    try:
+        loss = loss_document(reader, result, value, options)
+    except PlantError:
+        loss = None
+    return result.to_json(), loss

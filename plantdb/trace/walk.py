@@ -67,13 +67,14 @@ class Walker:
     def run(self, action: Action, seen: frozenset[tuple[Any, ...]]) -> list[Branch]:
         """Every branch of the walk that starts with `action`."""
         done: list[Branch] = []
-        work: list[tuple[_Chain | None, frozenset[tuple[Any, ...]], Action]] = [
-            (None, seen, action)
-        ]
+        # Each partial path owns a set of the places it has visited; a fan-out copies it
+        # for every branch but one, so a long unbranched walk never copies at all.
+        work: list[tuple[_Chain | None, set[tuple[Any, ...]], Action]] = [(None, set(seen), action)]
         while work:
             chain, visited, current = work.pop()
             steps = self._step(current, visited)
-            for new_elements, visit, following in reversed(steps):
+            last = len(steps) - 1
+            for n, (new_elements, visit, following) in enumerate(reversed(steps)):
                 node = chain
                 for element in new_elements:
                     node = _Chain(element, node)
@@ -84,18 +85,22 @@ class Walker:
                 if isinstance(following, PathEnd):
                     done.append(Branch(node.to_list() if node else [], following))
                     continue
-                work.append((node, visited | visit, following))
+                own = visited if n == last else set(visited)
+                own.update(visit)
+                work.append((node, own, following))
         return done
 
     def _step(
-        self, action: Action, visited: frozenset[tuple[Any, ...]]
+        self, action: Action, visited: set[tuple[Any, ...]]
     ) -> list[tuple[list[Element], frozenset[tuple[Any, ...]], Action | PathEnd]]:
         handler = getattr(self, f"_{action[0]}")
         steps = handler(*action[1:])
         for _elements, visit, _following in steps:
-            loop = visit & visited
+            loop = visited.intersection(visit)
             if loop:
-                raise RecordsError(f"the record loops: the walk comes back to {self._where(loop)}")
+                raise RecordsError(
+                    f"the record loops: the walk comes back to {self._where(frozenset(loop))}"
+                )
         return steps
 
     def _where(self, keys: frozenset[tuple[Any, ...]]) -> str:
