@@ -32,7 +32,12 @@ def init_command(run: Invocation) -> None:
     else:
         state = f"upgraded from {before}"
     run.emit(
-        {"database": database.url, "schema": head, "previous": before, "state": state},
+        {
+            "database": database.engine.url.render_as_string(hide_password=True),
+            "schema": head,
+            "previous": before,
+            "state": state,
+        },
         lambda d: f"schema {d['schema']} {d['state']} in {d['database']}",
     )
 

@@ -40,3 +40,80 @@ def synth_command(run: Invocation, fibers: int, seed: int) -> None:
         raise PlantError(str(exc)) from exc
     document["seconds"] = time.perf_counter() - started
     run.emit(document, _synth_text)
+
+
+def _bench_text(document: dict[str, Any]) -> str:
+    from plantdb.tables import format_table
+
+    rows = []
+    for r in document["results"]:
+        ratio = "" if r["ratio"] is None else f"{r['ratio']:.1f}"
+        target = "" if r["target_ratio"] is None else f"<= {r['target_ratio']:g}"
+        rows.append(
+            [
+                r["name"],
+                f"{r['median_s'] * 1000:,.1f}",
+                "" if r["baseline_median_s"] is None else f"{r['baseline_median_s'] * 1000:,.2f}",
+                ratio,
+                target,
+                f"<= {r['target_s'] * 1000:,.0f}",
+                f"{r['n']:,}",
+            ]
+        )
+    lines = [
+        f"plantdb bench: {document['fibers']:,} strands asked, {document['database']}",
+        format_table(
+            ["name", "median ms", "baseline ms", "ratio", "target ratio", "target ms at 1M", "n"],
+            rows,
+            right=(1, 2, 3, 6),
+        ),
+    ]
+    if document.get("peak_memory_mb") is not None:
+        lines.append(
+            f"server peak memory after one of each request: "
+            f"{document['peak_memory_mb']:.0f} MB (target <= 300 MB)"
+        )
+    return "\n".join(lines)
+
+
+@plant_command(cli, "bench")
+@click.option(
+    "--fibers",
+    type=int,
+    default=1_000_000,
+    show_default=True,
+    help="Size of the synthetic plant to measure on.",
+)
+@click.option("--seed", type=int, default=1, show_default=True)
+@click.option(
+    "--repeat",
+    type=int,
+    default=7,
+    show_default=True,
+    help="Timed runs per benchmark (after one warm-up).",
+)
+@click.option(
+    "--memory/--no-memory",
+    default=True,
+    show_default=True,
+    help="Also measure a server's peak memory.",
+)
+def bench_command(run: Invocation, fibers: int, seed: int, repeat: int, memory: bool) -> None:
+    """Benchmark the answers on a synthetic plant (built once per size and seed, then reused).
+
+    Without --db (or $PLANTDB_DATABASE_URL) the plant is kept in
+    bench-data/synth-N-seedS.sqlite under this folder.
+    """
+    from plantdb.bench.memory import server_peak_memory_mb
+    from plantdb.bench.suite import default_database, prepare, run_suite
+
+    url = run.url if run.explicit_url else default_database(fibers, seed)
+    database = prepare(url, fibers, seed)
+    try:
+        document = run_suite(database, fibers, repeat)
+        document["peak_memory_mb"] = (
+            server_peak_memory_mb(url, document["picks"]) if memory else None
+        )
+    finally:
+        database.dispose()
+    run.emit(document, _bench_text)

@@ -143,7 +143,7 @@ _FIBER_TYPES: list[Bundle] = [
      "attenuation_db_per_km": _SINGLE_MODE_ATTENUATION, "group_index": _SINGLE_MODE_INDEX},
     # Maximum: ANSI/TIA-568.3-D multimode allowance (memory); typical: trade planning values;
     # group index of 50/125 fiber (seen).
-    {"name": "MM-OM4", "mode": "multimode", "standard": "OM4 (50/125, laser-optimised)",
+    {"name": "MM-OM4", "mode": "multimode", "standard": "OM4",
      "attenuation_db_per_km": {"850": {"max": 3.5, "typical": 2.5},
                                "1300": {"max": 1.5, "typical": 0.8}},
      "group_index": {"850": 1.481, "1300": 1.476}},

@@ -37,11 +37,23 @@ class RawConnection:
             )
         else:
             self.connection = sqlite3.connect(parsed.database or "", isolation_level=None)
+            # The same rules plantdb's own connections run under, for a fair comparison.
+            self.connection.execute("PRAGMA foreign_keys=ON")
+            self.connection.execute("PRAGMA busy_timeout=30000")
 
     def query(self, sql: str, params: tuple[Any, ...] = ()) -> list[Any]:
         if self.postgres:
             sql = sql.replace("?", "%s")
         return list(self.connection.execute(sql, params).fetchall())
+
+    def executemany(self, sql: str, rows: list[tuple[Any, ...]]) -> None:
+        if self.postgres:
+            sql = sql.replace("?", "%s")
+        cursor = self.connection.cursor()
+        try:
+            cursor.executemany(sql, rows)
+        finally:
+            cursor.close()
 
     def close(self) -> None:
         self.connection.close()

@@ -86,6 +86,11 @@ def refresh_circuits(session: Session, circuit_ids: Iterable[int] | None = None)
                 state, note = INCOMPLETE, f"the walk from A stops at {stops}"
         if path is not None:
             rows += _items(reader, circuit_id, path)
+        elif state == INCOMPLETE:
+            # A broken circuit still rides everything its A end reaches: keep those steps, so
+            # a cut or an opened closure there still names it.
+            for partial in every:
+                rows += _items(reader, circuit_id, partial)
         states.append({"id": circuit_id, "path_state": state, "path_note": note})
     if rows:
         session.execute(insert(CircuitPathItem), rows)

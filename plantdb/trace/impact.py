@@ -67,6 +67,7 @@ def _circuit_rows(session: Session, condition: Any) -> list[dict[str, Any]]:
             Circuit.a_port_id,
             Circuit.z_port_id,
             Circuit.customer,
+            Circuit.path_state,
         ).where(Circuit.id.in_(select(CircuitPathItem.circuit_id).where(condition)))
     ).all()
     names = _port_names(session, {r[3] for r in rows} | {r[4] for r in rows if r[4]})
@@ -78,8 +79,11 @@ def _circuit_rows(session: Session, condition: Any) -> list[dict[str, Any]]:
             "a": names[a],
             "z": names.get(z) if z else None,
             "customer": customer,
+            # "incomplete": the record no longer carries it from A to Z (see `plantdb check`),
+            # but what its A end still reaches runs through here.
+            "path_state": state,
         }
-        for label, status, kind, a, z, customer in rows
+        for label, status, kind, a, z, customer, state in rows
     ]
     circuits.sort(key=lambda c: (_STATUS_ORDER.index(str(c["status"])), str(c["label"])))
     return circuits

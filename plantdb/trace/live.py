@@ -76,7 +76,7 @@ def _circuits_here(
 ) -> dict[int | None, list[dict[str, str]]]:
     """Strand id -> circuits whose kept path uses that strand's glass at this station."""
     rows = session.execute(
-        select(CircuitPathItem.strand_id, Circuit.label, Circuit.status)
+        select(CircuitPathItem.strand_id, Circuit.label, Circuit.status, Circuit.path_state)
         .join(Circuit, Circuit.id == CircuitPathItem.circuit_id)
         .where(
             CircuitPathItem.cable_id == cable_id,
@@ -86,8 +86,10 @@ def _circuits_here(
         .order_by(Circuit.label)
     ).all()
     found: dict[int | None, list[dict[str, str]]] = defaultdict(list)
-    for strand_id, label, status in rows:
+    for strand_id, label, status, state in rows:
         entry = {"label": label, "status": str(status)}
+        if state != "complete":
+            entry["path_state"] = str(state)
         if entry not in found[strand_id]:
             found[strand_id].append(entry)
     return found

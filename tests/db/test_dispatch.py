@@ -262,3 +262,19 @@ def test_locate_past_the_far_end_is_refused_with_the_length(database: Database) 
         _locate(database, "P-CO:1", 1100.0)
     with pytest.raises(PlantError, match="positive"):
         _locate(database, "P-CO:1", -3.0)
+
+
+def test_a_broken_circuit_still_shows_where_its_a_end_reaches(database: Database) -> None:
+    """Safety: a circuit whose record no longer reaches Z is still named at a cut or an open
+    closure on what its A end reaches, marked as incomplete."""
+    bundle = ashgrove()
+    bundle.data["terminations"] = [t for t in bundle.data["terminations"]
+                                   if t["port"] != "PR-P1:1"]
+    _load(database, bundle)
+    circuits = _impact(database, span="S1")["circuits"]
+    broken = next(c for c in circuits if c["label"] == "AG-2")
+    assert broken["path_state"] == "incomplete"
+    strand = next(s for s in _live(database, "AC-1")["strands"] if s["address"] == "F-1:5")
+    assert strand["circuits"] == [{"label": "AG-2", "status": "active",
+                                   "path_state": "incomplete"}]
+    assert strand["live"]

@@ -1,0 +1,1 @@
+"""The benchmark suite (`plantdb bench`, `make bench`): timings beside raw-SQL baselines."""
