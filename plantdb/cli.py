@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import functools
 import json
+import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
@@ -17,7 +18,13 @@ import click
 from sqlalchemy.exc import DBAPIError
 
 from plantdb import __version__
-from plantdb.db import Database, require_current_schema, resolve_url, run_in_transaction
+from plantdb.db import (
+    ENV_URL,
+    Database,
+    require_current_schema,
+    resolve_url,
+    run_in_transaction,
+)
 from plantdb.errors import PlantError
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -27,6 +34,8 @@ class Invocation:
     """What every command gets: where the database is, and whether to print JSON."""
 
     def __init__(self, db_url: str | None, as_json: bool) -> None:
+        # Whether the user named a database (--db or the environment), not the default.
+        self.explicit_url = bool(db_url or os.environ.get(ENV_URL))
         self.url = resolve_url(db_url)
         self.as_json = as_json
         self._database: Database | None = None
