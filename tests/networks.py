@@ -228,7 +228,7 @@ def larkspur() -> Bundle:
     LC-2 (manhole LK-MH2, 1 tray of 12) -> LK-P3 mid-span at both closures; C-X (12) runs
     LC-2 -> LK-P3 and never enters LC-1. Splitters LS-1 (1x8) and LS-2 (1x4) sit in LC-1;
     LS-2's leg 1 is terminated on port 1 of the manhole panel LK-MP. Recorded already:
-    C-A:1 to C-B:1 in tray 1 slot 1 (fusion, 0.04 dB).
+    C-A:48 to C-B:48 in tray 2 slot 24 (fusion, 0.04 dB).
     """
     b = Bundle().fiber_type(SINGLE_MODE).fiber_type(MULTIMODE)
     b.structure("LK-CO", 0, kind="central_office").structure("LK-MH1", 400)
@@ -262,5 +262,5 @@ def larkspur() -> Bundle:
     )
     b.cable("C-X", ["L4"], [("LC-2", 0.0), ("LK-P3", 405.0)], units=1)
     b.terminate("LS-2:1", "LK-MP:1")
-    b.splice("LC-1", "C-A:1", "C-B:1", loss_db=0.04)
+    b.splice("LC-1", "C-A:48", "C-B:48", tray=2, slot=24, loss_db=0.04)
     return b

@@ -45,6 +45,9 @@ from plantdb.records.placement import chain_spans
 GEOMETRY_TOLERANCE_M = 50.0
 MAX_REPORTED = 200
 _RATIO = re.compile(r"^([12])\s*[xX]\s*(\d+)$")
+# Passive splitters are made up to 1x128, rarely 1x256 (trade); a bigger N is a typo, and each
+# leg is a row.
+MAX_SPLITTER_OUTPUTS = 256
 _NAMED_PATH = re.compile(r"^(\w+\[\d+\]) \((.+)\)$")
 _NAMES_NOTHING = re.compile(r" (?:is labelled|is named) (.+)$")
 
@@ -392,10 +395,10 @@ def load_equipment(ctx: LoadContext, data: dict[str, Any]) -> None:
 
 
 def parse_ratio(text: str) -> tuple[int, int]:
-    """`1x32` -> (1, 32); refuses anything but 1xN or 2xN with N >= 2."""
+    """`1x32` -> (1, 32); refuses anything but 1xN or 2xN with 2 <= N <= 256."""
     match = _RATIO.match(text.strip())
-    if not match or int(match.group(2)) < 2:
-        raise PlantError(f"ratio {text!r} is not 1xN or 2xN (N at least 2)")
+    if not match or not 2 <= int(match.group(2)) <= MAX_SPLITTER_OUTPUTS:
+        raise PlantError(f"ratio {text!r} is not 1xN or 2xN (N from 2 to {MAX_SPLITTER_OUTPUTS})")
     return int(match.group(1)), int(match.group(2))
 
 

@@ -197,3 +197,26 @@ def resolve_cut(lookup: RecordLookup, text: object, closure: PlaceInfo) -> EndRe
             " at a mid-span access"
         )
     return _strand_end(lookup, cable, station, number, "A", str(address))
+
+
+def sibling_end(lookup: RecordLookup, end: EndRef, cable: CableInfo, number: int) -> EndRef:
+    """The end of strand `number` of `end`'s cable at the same station, on the same side.
+
+    A run of strands shares its station and side, so a range resolves its first strand with
+    `resolve_splice_end` (every rule) and the others with this (only the strand differs).
+    """
+    assert end.station_id is not None and end.side is not None and end.cable_id == cable.id
+    shown = strand_address(cable.label, number, end.side if end.mid_span else None)
+    strand_id = _strand(lookup, cable, number, shown)
+    return EndRef(
+        address=shown,
+        key=("end", cable.id, strand_id, end.station_id, end.side),
+        strand_id=strand_id,
+        station_id=end.station_id,
+        side=end.side,
+        cable_id=cable.id,
+        fiber_type_id=cable.fiber_type_id,
+        strand=number,
+        fibers_per_unit=cable.fibers_per_unit,
+        mid_span=end.mid_span,
+    )

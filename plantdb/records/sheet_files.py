@@ -22,7 +22,7 @@ import zipfile
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
 from plantdb.errors import PlantError
 
@@ -255,19 +255,21 @@ def _xlsx_records(rows: Iterable[tuple[Any, ...]], sheet: Sheet) -> Iterator[tup
         yield line, cells
 
 
-def read_xlsx_sheet(path: Path) -> Sheet:
-    """A sheet from the first worksheet of an XLSX workbook, after the archive checks."""
-    from openpyxl import load_workbook
-    from openpyxl.xml import DEFUSEDXML
+def _reason(exc: BaseException) -> str:
+    """The innermost cause of a reader's failure, on one line."""
+    while exc.__cause__ is not None or exc.__context__ is not None:
+        exc = exc.__cause__ or exc.__context__  # type: ignore[assignment]
+    text = str(exc).strip().splitlines()
+    return f"{type(exc).__name__}: {text[0]}" if text else type(exc).__name__
 
-    if not DEFUSEDXML:  # without it openpyxl would expand XML entities (a "billion laughs")
-        raise PlantError("reading XLSX needs the defusedxml package installed")
-    check_xlsx_archive(path)
-    sheet = Sheet(path.name)
+
+def _first_sheet(handle: BinaryIO, sheet: Sheet) -> Sheet:
+    from openpyxl import load_workbook
+
     try:
-        workbook = load_workbook(path, read_only=True, data_only=True)
+        workbook = load_workbook(handle, read_only=True, data_only=True)
     except Exception as exc:  # noqa: BLE001 - any failure of a hostile file is a refusal
-        raise PlantError(f"{path.name} is not a readable XLSX workbook ({exc})") from None
+        raise PlantError(f"{sheet.name} is not a readable XLSX workbook ({_reason(exc)})") from None
     try:
         first = workbook.worksheets[0]
         first.reset_dimensions()  # a forged dimension must not make the reader pad rows
@@ -276,9 +278,23 @@ def read_xlsx_sheet(path: Path) -> Sheet:
     except PlantError:
         raise
     except Exception as exc:  # noqa: BLE001 - any failure of a hostile file is a refusal
-        raise PlantError(f"{path.name}: the first sheet is not readable ({exc})") from None
+        raise PlantError(
+            f"{sheet.name}: the first sheet is not readable ({_reason(exc)})"
+        ) from None
     finally:
         workbook.close()
+
+
+def read_xlsx_sheet(path: Path) -> Sheet:
+    """A sheet from the first worksheet of an XLSX workbook, after the archive checks."""
+    from openpyxl.xml import DEFUSEDXML
+
+    if not DEFUSEDXML:  # without it openpyxl would expand XML entities (a "billion laughs")
+        raise PlantError("reading XLSX needs the defusedxml package installed")
+    check_xlsx_archive(path)
+    # Opened here, so the file is closed even when openpyxl fails half-way through.
+    with path.open("rb") as handle:
+        return _first_sheet(handle, Sheet(path.name))
 
 
 # -- either ------------------------------------------------------------------------------

@@ -15,8 +15,9 @@ from sqlalchemy.orm import Session
 from plantdb.errors import NotFound
 from plantdb.model import FiberEnd, Splice
 from plantdb.records.lookup import PlaceInfo, RecordLookup
-from plantdb.records.splice_rows import RecordedSplice, recorded_splices
-from plantdb.records.splicing import SpliceReport
+from plantdb.records.splice_requests import SpliceReport
+from plantdb.records.splice_rows import RecordedEnd, RecordedSplice, recorded_splices
+from plantdb.trace.circuits import refresh_affected
 
 
 def _closure(lookup: RecordLookup, label: str) -> PlaceInfo:
@@ -76,6 +77,7 @@ def remove_splices(session: Session, closure: str, tray: int, slots: Sequence[in
     ids = [s.id for s in splices]
     session.execute(delete(FiberEnd).where(FiberEnd.splice_id.in_(ids)))
     session.execute(delete(Splice).where(Splice.id.in_(ids)))
+    _refresh_circuits(lookup, [e for s in splices for e in (s.a, s.b)])
     report.removed = len(ids)
     report.splices = [_describe(place, s, s.tray, s.slot) for s in splices]
     left_cut = [e.address for s in splices for e in (s.a, s.b) if e.side is not None]
@@ -84,6 +86,17 @@ def remove_splices(session: Session, closure: str, tray: int, slots: Sequence[in
             f"these pieces stay cut at {place.label}, now unconnected: {', '.join(left_cut)}"
         )
     return report
+
+
+def _refresh_circuits(lookup: RecordLookup, ends: list[RecordedEnd]) -> None:
+    """Re-trace the circuits over these ends: a removed splice breaks whatever crossed it."""
+    strands = {e.strand_id for e in ends if e.strand_id is not None}
+    splitters = set()
+    for end in ends:
+        splitter = lookup.splitter(end.label) if end.cable is None else None
+        if splitter is not None:
+            splitters.add(splitter.id)
+    refresh_affected(lookup.session, strand_ids=strands, splitter_ids=splitters)
 
 
 def move_splices(

@@ -42,6 +42,7 @@ class RecordedEnd:
     side: str | None = None  # "A"/"B" at a mid-span access, None at a cable's end or a leg
     cable: CableInfo | None = None
     strand: int | None = None
+    strand_id: int | None = None
 
     @property
     def toward(self) -> str | None:
@@ -76,12 +77,8 @@ class RecordedSplice:
         return f"{self.a.address} to {self.b.address}"
 
 
-def _strand_end(lookup: RecordLookup, row: Any) -> RecordedEnd:
-    cable = lookup.cable(row.cable)
-    assert cable is not None
-    station = next(s for s in cable.stations if s.id == row.station_id)
+def _strand_end(row: Any, cable: CableInfo, mid_span: bool) -> RecordedEnd:
     side = str(row.side)
-    mid_span = cable.end_side(station) is None
     number: int = row.number
     return RecordedEnd(
         address=strand_address(cable.label, number, side if mid_span else None),
@@ -91,7 +88,16 @@ def _strand_end(lookup: RecordLookup, row: Any) -> RecordedEnd:
         side=side if mid_span else None,
         cable=cable,
         strand=number,
+        strand_id=row.strand_id,
     )
+
+
+def _station_kind(lookup: RecordLookup, label: str, station_id: int) -> tuple[CableInfo, bool]:
+    """The cable, and whether it passes through this station mid-span."""
+    cable = lookup.cable(label)
+    assert cable is not None
+    station = next(s for s in cable.stations if s.id == station_id)
+    return cable, cable.end_side(station) is None
 
 
 def recorded_splices(lookup: RecordLookup, closure_id: int) -> list[RecordedSplice]:
@@ -128,13 +134,17 @@ def recorded_splices(lookup: RecordLookup, closure_id: int) -> list[RecordedSpli
     ).all()
     ends: dict[int, dict[int, RecordedEnd]] = {}
     heads: dict[int, Any] = {}
+    stations: dict[tuple[str, int], tuple[CableInfo, bool]] = {}
     for row in rows:
         if row.leg_id is not None:
             end = RecordedEnd(
                 f"{row.splitter}:{row.leg}", ("leg", row.leg_id), row.splitter, row.leg
             )
         else:
-            end = _strand_end(lookup, row)
+            where = (row.cable, row.station_id)
+            if where not in stations:
+                stations[where] = _station_kind(lookup, *where)
+            end = _strand_end(row, *stations[where])
         ends.setdefault(row.id, {})[row.splice_side] = end
         heads.setdefault(row.id, row)
     return [

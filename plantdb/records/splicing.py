@@ -9,128 +9,54 @@ when the report lists problems nothing was written and the caller refuses the wh
 
 from __future__ import annotations
 
-import datetime as dt
 import gc
-import re
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
-from dataclasses import dataclass, field
-from typing import Any
+from dataclasses import dataclass
+from functools import lru_cache
+from typing import Any, TypeVar
 
-from sqlalchemy import select
+from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
-from plantdb.addresses import parse_address
-from plantdb.catalogue import SPLICE_MAX
-from plantdb.colours import strand_colours
 from plantdb.errors import PlantError
 from plantdb.model import ConstructionKind, Cut, FiberEnd, FiberType, Splice, SpliceMethod
 from plantdb.records.bundle_connections import ABSURD_SPLICE_LOSS_DB, cut_rows_for, end_row
 from plantdb.records.bundle_load import LoadContext
-from plantdb.records.ends import EndRef, resolve_splice_end
+from plantdb.records.ends import EndRef, resolve_splice_end, sibling_end
 from plantdb.records.lookup import CableInfo, PlaceInfo, RecordLookup
+from plantdb.records.splice_requests import (
+    METHODS,
+    EndGroup,
+    Progress,
+    SpliceRefused,
+    SpliceReport,
+    SpliceRequest,
+    at,
+    end_group,
+)
 from plantdb.records.splice_rows import RecordedSplice, recorded_splices
+from plantdb.records.splice_warnings import RowWarnings
 from plantdb.records.strand_notation import Construction, leg_names, strand_run
+from plantdb.trace.circuits import refresh_affected
 
-METHODS = tuple(m.value for m in SpliceMethod)
+__all__ = [
+    "METHODS",
+    "EndGroup",
+    "Progress",
+    "SpliceRefused",
+    "SpliceReport",
+    "SpliceRequest",
+    "end_group",
+    "record_splices",
+]
+
 # Progress is reported every this many requests (a sheet of 100,000 rows moves a bar 100 times).
 PROGRESS_STEP = 1000
-# A trailing /A or /B after a strand number or a numeric range is the contract's side suffix.
-_SIDE_SUFFIX = re.compile(r"^(\d+(?:\s*-\s*\d+)?)\s*/\s*([ABab])$")
-
-Progress = Callable[[int], None]
-
-
-@dataclass(frozen=True)
-class EndGroup:
-    """One side of a splice request: a cable's strands (with the piece's side at a mid-span
-    access) or a splitter's legs, in the notation of `strand_notation`."""
-
-    label: str
-    points: str
-    side: str | None = None
-
-    def __str__(self) -> str:
-        side = f" side {self.side}" if self.side else ""
-        return f"{self.label}:{self.points}{side}"
-
-
-def end_group(text: str, side: str | None = None) -> EndGroup:
-    """`LABEL:POINTS` (e.g. "C-A:13-24", "C-A:tube 2", "C-A:BL/OR", "F-1:5/A", "SPL-1:in")."""
-    address = parse_address(text, "fiber end")
-    points = address.point
-    suffix = _SIDE_SUFFIX.match(points)
-    if suffix:
-        if side is not None and side.upper() != suffix.group(2).upper():
-            raise PlantError(f"{text}: the address says side {suffix.group(2)}, not {side}")
-        points, side = suffix.group(1), suffix.group(2)
-    return EndGroup(address.label, points, side.upper() if side else None)
-
-
-@dataclass(frozen=True)
-class SpliceRequest:
-    """Splice a group of ends to another of the same size, slots counting up from `slot`."""
-
-    closure: str
-    tray: int
-    slot: int
-    a: EndGroup
-    b: EndGroup
-    method: str | None = None
-    loss_db: float | None = None
-    spliced_on: dt.date | None = None
-    spliced_by: str | None = None
-    where: str = ""  # "line 7" on a sheet: the prefix of every message about this request
-
-
-@dataclass
-class SpliceReport:
-    """What a splicing call did (or, with problems or a dry run, would have done)."""
-
-    added: int = 0
-    already_recorded: int = 0
-    removed: int = 0
-    moved: int = 0
-    cuts: int = 0
-    splices: list[dict[str, Any]] = field(default_factory=list)
-    warnings: list[str] = field(default_factory=list)
-    notes: list[str] = field(default_factory=list)
-    problems: list[str] = field(default_factory=list)
-
-    def document(self) -> dict[str, Any]:
-        """The report as a JSON document."""
-        return {
-            "added": self.added,
-            "already_recorded": self.already_recorded,
-            "removed": self.removed,
-            "moved": self.moved,
-            "cuts": self.cuts,
-            "splices": self.splices,
-            "warnings": self.warnings,
-            "notes": self.notes,
-            "problems": self.problems,
-        }
-
-    def refuse_if_problems(self, what: str) -> None:
-        """Raise `SpliceRefused` listing every problem (and the warnings after them)."""
-        if self.problems:
-            raise SpliceRefused(what, self)
-
-
-class SpliceRefused(PlantError):
-    """A batch of splices refused as a whole: every problem found, nothing written."""
-
-    def __init__(self, what: str, report: SpliceReport) -> None:
-        count = len(report.problems)
-        noun = "problem" if count == 1 else "problems"
-        details = report.problems + [f"warning: {w}" for w in report.warnings]
-        super().__init__(f"{what} refused, nothing was written: {count} {noun}", details)
-        self.report = report
-
-
-def at(where: str, message: str) -> str:
-    """A message about a request, prefixed with where it came from ("line 7: ...")."""
-    return f"{where}: {message}" if where else message
+_T = TypeVar("_T")
+# Plain strings, compared once per fiber: an enum's .value is a descriptor call each time.
+_CENTRAL_CORE = ConstructionKind.CENTRAL_CORE.value
+_RIBBON = ConstructionKind.RIBBON.value
 
 
 @dataclass
@@ -212,6 +138,8 @@ class _Planner:
         self._modes: dict[int, str] | None = None
         self._recorded: dict[int, tuple[dict[object, RecordedSplice], ...]] = {}
         self._closures: dict[int, PlaceInfo] = {}
+        self._first_ends: dict[tuple[int, int, str | None], EndRef] = {}
+        self.splitter_ids: set[int] = set()
 
     def check(self, request: SpliceRequest) -> None:
         try:
@@ -219,7 +147,7 @@ class _Planner:
         except PlantError as exc:
             self.report.problems.append(at(request.where, exc.message))
             return
-        warnings = _RowWarnings(request, self._mode)
+        warnings = RowWarnings(request, self._modes_of(a.cable, b.cable))
         planned = len(self.planned)
         for i, (end_a, end_b) in enumerate(zip(a.ends, b.ends, strict=True)):
             slot = request.slot + i
@@ -269,26 +197,49 @@ class _Planner:
         side = group.side.upper() if group.side else None
         if side not in (None, "A", "B"):
             raise PlantError(f"{group}: a side is A or B, not {group.side!r}")
+        if kind == "splitter":
+            if side:
+                raise PlantError(f"{group}: a splitter leg has no side")
+            splitter = self.lookup.splitter(group.label)
+            assert splitter is not None
+            self.splitter_ids.add(splitter.id)
+            legs = self._notation(group, leg_names, group.points)
+            ends = [
+                resolve_splice_end(self.lookup, f"{group.label}:{leg}", closure) for leg in legs
+            ]
+            return _Group(ends, None)
+        if kind != "cable":
+            raise PlantError(f"{group.label}: no cable or splitter is labelled {group.label}")
+        cable = self.lookup.cable(group.label)
+        assert cable is not None
+        run = self._notation(group, strand_run, group.points, _construction(cable))
+        first = self._first_end(closure, cable, run.numbers[0], side)
+        ends = [first] + [sibling_end(self.lookup, first, cable, n) for n in run.numbers[1:]]
+        return _Group(ends, cable, run.whole_unit)
+
+    @staticmethod
+    def _notation(group: EndGroup, read: Callable[..., _T], *args: Any) -> _T:
         try:
-            if kind == "splitter":
-                if side:
-                    raise PlantError(f"{group}: a splitter leg has no side")
-                points: tuple[str, ...] = leg_names(group.points)
-                cable, whole = None, False
-            elif kind == "cable":
-                cable = self.lookup.cable(group.label)
-                assert cable is not None
-                run = strand_run(group.points, _construction(cable))
-                points, whole = tuple(map(str, run.numbers)), run.whole_unit
-            else:
-                raise PlantError(f"{group.label}: no cable or splitter is labelled {group.label}")
+            return read(*args)
         except ValueError as exc:
             raise PlantError(f"{group}: {exc}") from None
+
+    def _first_end(
+        self, closure: PlaceInfo, cable: CableInfo, number: int, side: str | None
+    ) -> EndRef:
+        """A strand's end by every rule of `resolve_splice_end`, asked once per cable and side.
+
+        The rules (a station in this closure, a side at a mid-span access and none at an end)
+        depend on the cable and side, not the strand, so later rows reuse the first answer.
+        """
+        key = (closure.id, cable.id, side)
+        known = self._first_ends.get(key)
+        if known is not None:
+            return sibling_end(self.lookup, known, cable, number)
         suffix = f"/{side}" if side else ""
-        ends = [
-            resolve_splice_end(self.lookup, f"{group.label}:{p}{suffix}", closure) for p in points
-        ]
-        return _Group(ends, cable, whole)
+        end = resolve_splice_end(self.lookup, f"{cable.label}:{number}{suffix}", closure)
+        self._first_ends[key] = end
+        return end
 
     def _tray(self, closure: PlaceInfo, request: SpliceRequest, count: int) -> tuple[int, int]:
         trays = self.lookup.trays(closure.id)
@@ -322,23 +273,24 @@ class _Planner:
         """Problems of one fiber splice; None when the record already holds it identically."""
         if a.key == b.key or (a.strand_id is not None and a.strand_id == b.strand_id):
             return [f"{a.address} would be spliced to {b.address}, the same strand"]
-        place = f"tray {request.tray} slot {slot} at {closure.label}"
         slot_key = ("slot", tray_id, slot)
-        problems = [
-            f"{name} is already {verb} on {self.claims[key]}"
-            for key, name, verb in (
-                (a.key, a.address, "spliced"),
-                (b.key, b.address, "spliced"),
-                (slot_key, place, "used"),
-            )
-            if key in self.claims
-        ]
-        if problems:
-            return problems
-        held = [self.lookup.used_by(key) for key in (a.key, b.key, slot_key)]
-        if not any(held):
+        claims = self.claims
+        place = f"tray {request.tray} slot {{}} at {closure.label}"
+        if a.key in claims or b.key in claims or slot_key in claims:
+            return [
+                f"{name} is already {verb} on {claims[key]}"
+                for key, name, verb in (
+                    (a.key, a.address, "spliced"),
+                    (b.key, b.address, "spliced"),
+                    (slot_key, place.format(slot), "used"),
+                )
+                if key in claims
+            ]
+        used_by = self.lookup.used_by
+        held = [used_by(a.key), used_by(b.key), used_by(slot_key)]
+        if not (held[0] or held[1] or held[2]):
             return []
-        return self._against_record(closure, request, a, b, slot_key, place, held)
+        return self._against_record(closure, request, a, b, slot_key, place.format(slot), held)
 
     def _against_record(
         self,
@@ -391,31 +343,49 @@ class _Planner:
         by_end, by_slot = self._recorded[closure.id]
         return by_end, by_slot
 
-    def _mode(self, fiber_type_id: int | None) -> str | None:
+    def _modes_of(self, a: CableInfo | None, b: CableInfo | None) -> tuple[str, str] | None:
+        """The two cables' fiber modes when they differ (None for a leg or the same mode)."""
+        if a is None or b is None:
+            return None
         if self._modes is None:
             rows = self.session.execute(select(FiberType.id, FiberType.mode))
             self._modes = {row[0]: str(row[1]) for row in rows}
-        return None if fiber_type_id is None else self._modes.get(fiber_type_id)
+        modes = self._modes[a.fiber_type_id], self._modes[b.fiber_type_id]
+        return modes if modes[0] != modes[1] else None
 
     def write(self, *, dry_run: bool) -> None:
         ctx = LoadContext(self.session, self.lookup)
         cut_rows = cut_rows_for(ctx, [end for p in self.planned for end in (p.a, p.b)])
         self.report.cuts = len(cut_rows)
         self.report.splices = [p.describe() for p in self.planned]
-        if dry_run:
+        if dry_run or not self.planned:
             return
-        ctx.insert(Cut, cut_rows)
-        ctx.insert(Splice, [p.row() for p in self.planned])
-        splice_ids = self._new_splice_ids()
-        ctx.insert(
-            FiberEnd,
-            [
-                {**end_row(end), "splice_id": splice_id, "splice_side": side}
-                for splice_id, planned in zip(splice_ids, self.planned, strict=True)
-                for side, end in ((1, planned.a), (2, planned.b))
-            ],
-        )
+        with _sqlite_cache(self.session, len(self.planned)):
+            self._insert(Cut, cut_rows)
+            self._insert(Splice, [p.row() for p in self.planned])
+            splice_ids = self._new_splice_ids()
+            self._insert(
+                FiberEnd,
+                [
+                    {**end_row(end), "splice_id": splice_id, "splice_side": side}
+                    for splice_id, planned in zip(splice_ids, self.planned, strict=True)
+                    for side, end in ((1, planned.a), (2, planned.b))
+                ],
+            )
         self.report.added = len(splice_ids)
+        ends = [end for p in self.planned for end in (p.a, p.b)]
+        # New splices (and the cuts they make) can complete, re-route or break a circuit.
+        refresh_affected(
+            self.session,
+            strand_ids={e.strand_id for e in ends if e.strand_id is not None},
+            splitter_ids=self.splitter_ids,
+        )
+
+    def _insert(self, model: Any, rows: list[dict[str, Any]]) -> None:
+        # The table's own INSERT, one executemany: the ORM's bulk path spends more time
+        # sorting out mapped attributes than the database spends writing the rows.
+        if rows:
+            self.session.execute(insert(model.__table__), rows)
 
     def _new_splice_ids(self) -> list[int]:
         """Ids of the splices just written, read back by their unique (tray, slot).
@@ -435,13 +405,17 @@ class _Planner:
         return [ids[(p.tray_id, p.slot)] for p in self.planned]
 
 
+@lru_cache(maxsize=4096)
+def _built(units: int, fibers_per_unit: int, construction: str) -> Construction:
+    return Construction(units, fibers_per_unit, construction != _CENTRAL_CORE)
+
+
 def _construction(cable: CableInfo) -> Construction:
-    has_units = cable.construction != ConstructionKind.CENTRAL_CORE.value
-    return Construction(cable.units, cable.fibers_per_unit, has_units)
+    return _built(cable.units, cable.fibers_per_unit, cable.construction)
 
 
 def _ribbon(cable: CableInfo | None) -> bool:
-    return cable is not None and cable.construction == ConstructionKind.RIBBON.value
+    return cable is not None and cable.construction == _RIBBON
 
 
 def _mismatch(existing: RecordedSplice, request: SpliceRequest) -> str:
@@ -454,73 +428,6 @@ def _mismatch(existing: RecordedSplice, request: SpliceRequest) -> str:
         recorded = "no loss" if existing.loss_db is None else f"loss {existing.loss_db:g} dB"
         return f"with {recorded}, not {loss:g} dB"
     return ""
-
-
-class _RowWarnings:
-    """Warnings of one request, one line per kind however many fibers the row splices."""
-
-    def __init__(self, request: SpliceRequest, mode: Callable[[int | None], str | None]) -> None:
-        self.request = request
-        self.mode = mode
-        self.first: dict[str, str] = {}
-        self.count: dict[str, int] = {}
-
-    def _note(self, kind: str, message: str) -> None:
-        self.first.setdefault(kind, message)
-        self.count[kind] = self.count.get(kind, 0) + 1
-
-    def pair(
-        self, a: EndRef, a_cable: CableInfo | None, b: EndRef, b_cable: CableInfo | None
-    ) -> None:
-        if a_cable is None or b_cable is None or a.strand is None or b.strand is None:
-            return  # a splitter leg has neither a colour nor a fiber type of the record
-        mode_a, mode_b = self.mode(a.fiber_type_id), self.mode(b.fiber_type_id)
-        if mode_a and mode_b and mode_a != mode_b:
-            self._note(
-                "mode",
-                f"mode mix: {a.address} is {mode_a} but {b.address} is {mode_b}; light will not"
-                " cross this splice as the record expects",
-            )
-        if _colour_key(a_cable, a.strand) != _colour_key(b_cable, b.strand):
-            self._note(
-                "colour",
-                f"colour change: {a.address} ({_colours(a_cable, a.strand)}) to {b.address}"
-                f" ({_colours(b_cable, b.strand)}) by the TIA-598 colour code",
-            )
-
-    def messages(self) -> list[str]:
-        out = [
-            at(self.request.where, message + _more(self.count[kind]))
-            for kind, message in self.first.items()
-        ]
-        loss = self.request.loss_db
-        if loss is not None and loss > SPLICE_MAX.value:
-            out.append(
-                at(
-                    self.request.where,
-                    f"loss {loss:g} dB is above the {SPLICE_MAX.value:g} dB splice allowance,"
-                    f" the {SPLICE_MAX.source}; check the splice or the reading",
-                )
-            )
-        return out
-
-
-def _more(count: int) -> str:
-    return "" if count == 1 else f" (and {count - 1} more on this row)"
-
-
-def _colour_key(cable: CableInfo, strand: int) -> tuple[int | None, int]:
-    """(unit position or None, fiber position): equal keys mean equal TIA-598 colours."""
-    if cable.construction == ConstructionKind.CENTRAL_CORE.value:
-        return None, strand
-    unit, position = divmod(strand - 1, cable.fibers_per_unit)
-    return unit + 1, position + 1
-
-
-def _colours(cable: CableInfo, strand: int) -> str:
-    if cable.construction == ConstructionKind.CENTRAL_CORE.value:
-        return strand_colours(strand, cable.fiber_count, has_units=False)
-    return strand_colours(strand, cable.fibers_per_unit)
 
 
 def record_splices(
@@ -542,6 +449,29 @@ def record_splices(
         if not planner.report.problems:
             planner.write(dry_run=dry_run)
     return planner.report
+
+
+# Past this many splices a write is a bulk load, worth a bigger SQLite page cache.
+BULK_SPLICES = 5_000
+
+
+@contextmanager
+def _sqlite_cache(session: Session, splices: int) -> Iterator[None]:
+    """On SQLite, a large page cache for a bulk write, put back as it was afterwards.
+
+    The default cache (2 MB) no longer holds the indexes of a big record, and each inserted
+    row then costs page reads; the same remedy as the synthetic-city loader's.
+    """
+    connection = session.connection()
+    if connection.dialect.name != "sqlite" or splices < BULK_SPLICES:
+        yield
+        return
+    before = connection.exec_driver_sql("PRAGMA cache_size").scalar()
+    connection.exec_driver_sql("PRAGMA cache_size = -1000000")  # up to 1 GB, as needed
+    try:
+        yield
+    finally:
+        connection.exec_driver_sql(f"PRAGMA cache_size = {int(before or -2000)}")
 
 
 @contextmanager

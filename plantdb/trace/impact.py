@@ -11,26 +11,22 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy import and_, func, or_, select
+from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, aliased
 
 from plantdb.errors import NotFound, PlantError
 from plantdb.model import (
     Cable,
     CableSpan,
-    Circuit,
-    CircuitPathItem,
     CircuitStatus,
     Closure,
-    Equipment,
     Panel,
-    Port,
     Span,
-    Splitter,
     Station,
     Structure,
 )
 from plantdb.safety import IMPACT_CAUTION
+from plantdb.trace.rawsql import RawSql
 
 _STATUS_ORDER = [
     s.value
@@ -44,46 +40,50 @@ _STATUS_ORDER = [
 ]
 
 
-def _port_names(session: Session, ids: set[int]) -> dict[int, str]:
-    if not ids:
-        return {}
-    return {
-        pid: f"{owner}:{name}"
-        for pid, owner, name in session.execute(
-            select(Port.id, func.coalesce(Panel.label, Equipment.label), Port.name)
-            .outerjoin(Panel, Panel.id == Port.panel_id)
-            .outerjoin(Equipment, Equipment.id == Port.equipment_id)
-            .where(Port.id.in_(sorted(ids)))
-        )
-    }
+# One row per circuit with both ends named: circuits are picked by their kept path items.
+_CIRCUITS = (
+    "SELECT c.label, c.status, c.kind, COALESCE(pa.label, ea.label) || ':' || a.name,"
+    " COALESCE(pz.label, ez.label) || ':' || z.name, c.customer, c.path_state"
+    " FROM circuit c JOIN port a ON a.id = c.a_port_id"
+    " LEFT JOIN panel pa ON pa.id = a.panel_id LEFT JOIN equipment ea ON ea.id = a.equipment_id"
+    " LEFT JOIN port z ON z.id = c.z_port_id"
+    " LEFT JOIN panel pz ON pz.id = z.panel_id LEFT JOIN equipment ez ON ez.id = z.equipment_id"
+    " WHERE c.id IN (SELECT circuit_id FROM circuit_path_item WHERE {where})"
+)
+# A piece of glass of a cable runs over path positions lo_index..hi_index.
+_COVERS = "(cable_id = ? AND lo_index <= ? AND hi_index >= ?)"
+_AT_PORTS = (
+    "port_id IN (SELECT p.id FROM port p LEFT JOIN panel o ON o.id = p.panel_id"
+    " LEFT JOIN equipment e ON e.id = p.equipment_id"
+    " WHERE COALESCE(o.structure_id, e.structure_id) = ?)"
+)
+_AT_SPLITTERS = (
+    "splitter_id IN (SELECT s.id FROM splitter s LEFT JOIN closure c ON c.id = s.closure_id"
+    " LEFT JOIN panel o ON o.id = s.panel_id WHERE COALESCE(c.structure_id, o.structure_id) = ?)"
+)
 
 
-def _circuit_rows(session: Session, condition: Any) -> list[dict[str, Any]]:
-    rows = session.execute(
-        select(
-            Circuit.label,
-            Circuit.status,
-            Circuit.kind,
-            Circuit.a_port_id,
-            Circuit.z_port_id,
-            Circuit.customer,
-            Circuit.path_state,
-        ).where(Circuit.id.in_(select(CircuitPathItem.circuit_id).where(condition)))
-    ).all()
-    names = _port_names(session, {r[3] for r in rows} | {r[4] for r in rows if r[4]})
+def _circuit_rows(
+    session: Session, conditions: list[str], params: list[Any]
+) -> list[dict[str, Any]]:
+    """Circuits whose kept paths meet any of the conditions, active first."""
+    if not conditions:
+        return []
+    # Assembled from the fixed fragments above only; every value is bound as a parameter.
+    sql = _CIRCUITS.format(where=" OR ".join(conditions))
     circuits = [
         {
             "label": label,
-            "status": str(status),
+            "status": status,
             "kind": kind,
-            "a": names[a],
-            "z": names.get(z) if z else None,
+            "a": a,
+            "z": z,
             "customer": customer,
             # "incomplete": the record no longer carries it from A to Z (see `plantdb check`),
             # but what its A end still reaches runs through here.
             "path_state": state,
         }
-        for label, status, kind, a, z, customer, state in rows
+        for label, status, kind, a, z, customer, state in RawSql(session).rows(sql, params)
     ]
     circuits.sort(key=lambda c: (_STATUS_ORDER.index(str(c["status"])), str(c["label"])))
     return circuits
@@ -101,15 +101,10 @@ def _span_impact(session: Session, label: str) -> dict[str, Any]:
     ).all()
     # The cable's span at position k lies between path positions k and k + 1: a piece of
     # glass runs through it when it spans both.
-    covers = [
-        and_(
-            CircuitPathItem.cable_id == cable_id,
-            CircuitPathItem.lo_index <= seq,
-            CircuitPathItem.hi_index >= seq + 1,
-        )
-        for cable_id, seq, _label, _count in placed
-    ]
-    circuits = _circuit_rows(session, or_(*covers)) if covers else []
+    params: list[Any] = []
+    for cable_id, seq, _label, _count in placed:
+        params += [cable_id, seq, seq + 1]
+    circuits = _circuit_rows(session, [_COVERS] * len(placed), params)
     return {
         "target": label,
         "kind": "span",
@@ -163,30 +158,12 @@ def _structure_impact(session: Session, label: str) -> dict[str, Any]:
         if positions
         else []
     )
-    covers = [
-        and_(
-            CircuitPathItem.cable_id == cable_id,
-            CircuitPathItem.lo_index <= p,
-            CircuitPathItem.hi_index >= p,
-        )
-        for cable_id, found in positions.items()
-        for p in found
-    ]
-    ports = (
-        select(Port.id)
-        .outerjoin(Panel, Panel.id == Port.panel_id)
-        .outerjoin(Equipment, Equipment.id == Port.equipment_id)
-        .where(func.coalesce(Panel.structure_id, Equipment.structure_id) == structure_id)
-    )
-    splitters = (
-        select(Splitter.id)
-        .outerjoin(Closure, Closure.id == Splitter.closure_id)
-        .outerjoin(Panel, Panel.id == Splitter.panel_id)
-        .where(func.coalesce(Closure.structure_id, Panel.structure_id) == structure_id)
-    )
-    condition = or_(
-        *covers, CircuitPathItem.port_id.in_(ports), CircuitPathItem.splitter_id.in_(splitters)
-    )
+    conditions: list[str] = [_AT_PORTS, _AT_SPLITTERS]
+    params: list[Any] = [structure_id, structure_id]
+    for cable_id, found in positions.items():
+        for p in found:
+            conditions.append(_COVERS)
+            params += [cable_id, p, p]
     spans = list(
         session.scalars(
             select(Span.label)
@@ -201,7 +178,7 @@ def _structure_impact(session: Session, label: str) -> dict[str, Any]:
         "kind": "structure",
         "cables": [c[1] for c in cables],
         "strands": sum(c[2] for c in cables),
-        "circuits": _circuit_rows(session, condition),
+        "circuits": _circuit_rows(session, conditions, params),
         "spans": spans,
     }
 

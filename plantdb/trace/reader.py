@@ -16,6 +16,7 @@ from typing import Any
 from sqlalchemy.orm import Session
 
 from plantdb.errors import NotFound
+from plantdb.trace.rawsql import RawSql
 from plantdb.trace.rows import (
     CableRow,
     EndRow,
@@ -110,11 +111,7 @@ class PlantReader:
 
     def __init__(self, session: Session) -> None:
         self.session = session
-        connection = session.connection()
-        self._raw = connection.connection.driver_connection
-        self._sql = SQL
-        if connection.dialect.name == "postgresql":
-            self._sql = {k: v.replace("?", "%s") for k, v in SQL.items()}
+        self.sql = RawSql(session)
         self._cables: dict[int, CableRow] = {}
         self._strand_cable: dict[int, tuple[int, int]] = {}
         self._cuts: dict[int, list[int]] = {}
@@ -126,7 +123,7 @@ class PlantReader:
 
     def rows(self, name: str, *params: Any) -> list[Any]:
         """Run one of the fixed queries."""
-        return list(self._raw.execute(self._sql[name], params).fetchall())  # type: ignore[union-attr]
+        return self.sql.rows(SQL[name], params)
 
     def row(self, name: str, *params: Any) -> Any:
         found = self.rows(name, *params)
