@@ -273,8 +273,11 @@ def run_synth(
         synth.flush()
         if progress:
             progress(t + 1, plan.trunks)
-    writer.write("setting", ("key", "value"),
-                 [("synth", json.dumps({"fibers": fibers, "seed": seed, "generator": 1}))])
+    writer.write(
+        "setting",
+        ("key", "value"),
+        [("synth", json.dumps({"fibers": fibers, "seed": seed, "generator": 1}))],
+    )
     writer.finish()
     return {
         "fibers_asked": fibers,
