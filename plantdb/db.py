@@ -171,12 +171,21 @@ def schema_revisions(engine: Engine) -> tuple[str | None, str]:
 
     head = ScriptDirectory.from_config(_alembic_config(engine)).get_current_head()
     assert head is not None
+    if _missing_sqlite_file(engine):
+        return None, head  # asking SQLite would create an empty file as a side effect
     try:
         with engine.connect() as connection:
             current = MigrationContext.configure(connection).get_current_revision()
     except OperationalError as exc:
         raise SchemaError(f"cannot open the database {_describe(engine)}: {exc.orig}") from exc
     return current, head
+
+
+def _missing_sqlite_file(engine: Engine) -> bool:
+    database = engine.url.database or ""
+    if not is_sqlite(engine) or not database or database == ":memory:":
+        return False
+    return not database.startswith("file:") and not Path(database).expanduser().exists()
 
 
 def _describe(engine: Engine) -> str:
@@ -191,15 +200,19 @@ def require_current_schema(engine: Engine) -> None:
             f"the database {_describe(engine)} is not initialised; run `plantdb init` first"
         )
     if current != head:
-        from alembic.script import ScriptDirectory
+        _refuse_unknown_revision(engine, current)
+        raise SchemaError(
+            f"the database {_describe(engine)} is at schema {current}, behind the code's"
+            f" {head}; run `plantdb init` to upgrade it"
+        )
 
-        script = ScriptDirectory.from_config(_alembic_config(engine))
-        known = {rev.revision for rev in script.walk_revisions()}
-        if current in known:
-            raise SchemaError(
-                f"the database {_describe(engine)} is at schema {current}, behind the code's"
-                f" {head}; run `plantdb init` to upgrade it"
-            )
+
+def _refuse_unknown_revision(engine: Engine, current: str) -> None:
+    """Refuse a database stamped by a newer plantdb: no migration here knows its schema."""
+    from alembic.script import ScriptDirectory
+
+    script = ScriptDirectory.from_config(_alembic_config(engine))
+    if current not in {rev.revision for rev in script.walk_revisions()}:
         raise SchemaError(
             f"the database {_describe(engine)} is at schema {current}, which this version of"
             " plantdb does not know (it is newer); upgrade plantdb"
@@ -211,6 +224,8 @@ def upgrade_schema(engine: Engine) -> tuple[str | None, str]:
     from alembic import command
 
     before, head = schema_revisions(engine)
+    if before is not None and before != head:
+        _refuse_unknown_revision(engine, before)
     config = _alembic_config(engine)
     with engine.connect() as connection:
         sqlite = is_sqlite(engine)

@@ -138,6 +138,35 @@ class Trunk:
                 "complete" if self.built else "incomplete",
             )
             if not self.built:
+                # The joints are not spliced yet: what A reaches is the first cable's glass.
+                s.new(
+                    "circuit_path_item",
+                    circuit,
+                    0,
+                    "port",
+                    None,
+                    None,
+                    None,
+                    None,
+                    None,
+                    None,
+                    self.west_ports[n - 1],
+                    None,
+                )
+                s.new(
+                    "circuit_path_item",
+                    circuit,
+                    1,
+                    "fiber",
+                    cables[0].strand(n),
+                    cables[0].id,
+                    0,
+                    2,
+                    0,
+                    2,
+                    None,
+                    None,
+                )
                 continue
             s.new(
                 "circuit_path_item",

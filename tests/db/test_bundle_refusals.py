@@ -18,7 +18,8 @@ from typing import Any
 import pytest
 
 from plantdb.db import Database, run_in_transaction
-from plantdb.records.bundle import BundleError, load_bundle
+from plantdb.records.bundle import BundleError, dump_bundle, load_bundle
+from plantdb.records.summary import record_counts
 from tests.conftest import PlantCli
 from tests.networks import SINGLE_MODE, Bundle, ashgrove
 
@@ -489,6 +490,12 @@ CASES = [
         id="ratio-3x4",
     ),
     pytest.param(
+        lambda b: b.splitter("SPL-1", "AC-1", "1x100000"),
+        "splitters[0] (SPL-1)",
+        "ratio '1x100000' is not 1xN or 2xN (N from 2 to 256)",
+        id="ratio-1x100000",
+    ),
+    pytest.param(
         steps(
             lambda b: b.splitter("SPL-1", "AC-1", "1x8"),
             lambda b: b.splice("AC-1", "F-1:6/A", "SPL-1:9", slot=2),
@@ -554,10 +561,11 @@ def attempt(plant: PlantCli, database: Database, tmp_path: Path) -> Callable[[An
     return run
 
 
-def _line_for(details: list[str], path: str) -> str:
-    lines = [line.strip() for line in details[1:] if line.strip().startswith(f"{path}: ")]
-    assert lines, f"no problem reported for {path}: {details}"
-    return lines[0]
+def _line_for(lines: list[str], path: str) -> str:
+    """The problem line for `path` among the lines after the first."""
+    found = [line.strip() for line in lines[1:] if line.strip().startswith(f"{path}: ")]
+    assert found, f"no problem reported for {path}: {lines}"
+    return found[0]
 
 
 def test_the_unbroken_network_loads(plant: PlantCli, tmp_path: Path) -> None:
@@ -624,11 +632,11 @@ def test_every_problem_is_reported_not_just_the_first(
     put("circuits[1].z", "CO-P1:5")(bundle)
     bundle.jumper("CO-P1:3", "CO-P1:3")
     bundle.cable("F-2", ["S1"], [("CO-P1", 0.0), ("AC-1", 301.0)], kind="ribbon", per_unit=8)
-    details = attempt(bundle.data)
-    assert details[0] == "plantdb: bundle not loaded, nothing was written: 5 problems"
+    lines = attempt(bundle.data)
+    assert lines[0] == "plantdb: bundle not loaded, nothing was written: 5 problems"
     for path in ("cables[2] (F-2)", "splices[0]", "terminations[3]", "jumpers[0]"):
-        _line_for(details, path)
-    _line_for(details, "circuits[1] (AG-2)")
+        _line_for(lines, path)
+    _line_for(lines, "circuits[1] (AG-2)")
 
 
 def test_items_naming_a_refused_item_are_listed_once(
@@ -637,8 +645,8 @@ def test_items_naming_a_refused_item_are_listed_once(
     """A broken cable is one problem, not one more for every splice and termination on it."""
     bundle = ashgrove()
     put("spans[0].to", "AH-2")(bundle)
-    details = attempt(bundle.data)
-    assert [line.strip() for line in details[1:]] == [
+    lines = attempt(bundle.data)
+    assert [line.strip() for line in lines[1:]] == [
         'spans[0] (S1): geometry\'s last position is 401 m from AH-2, its "to" structure'
         " (allowed 50 m; is the line drawn backwards?)",
         "cables[0] (F-1): name S1, which is refused (spans[0])",
@@ -655,13 +663,10 @@ def test_every_shape_problem_is_reported_and_counted(
     put("closures[0].trays", "two")(bundle)
     drop("spans[2].to")(bundle)
     put("version", 3)(bundle)
-    details = attempt(bundle.data)
+    lines = attempt(bundle.data)
     for path in ("cables[0].constuction", "closures[0].trays", "spans[2].to", "version"):
-        _line_for(details, path)
-    assert (
-        details[0]
-        == f"plantdb: bundle not loaded, nothing was written: {len(details) - 1} problems"
-    )
+        _line_for(lines, path)
+    assert lines[0] == f"plantdb: bundle not loaded, nothing was written: {len(lines) - 1} problems"
 
 
 def test_hundreds_of_problems_are_capped_with_a_count(
@@ -670,18 +675,15 @@ def test_hundreds_of_problems_are_capped_with_a_count(
     bundle = ashgrove()
     for n in range(300):
         bundle.data["terminations"].append({"fiber": f"F-1:{100 + n}", "port": "CO-P1:20"})
-    details = attempt(bundle.data)
-    assert details[-1].strip() == "... and 100 more"
-    assert len(details) == 1 + 200 + 1
+    lines = attempt(bundle.data)
+    assert lines[-1].strip() == "... and 100 more"
+    assert len(lines) == 1 + 200 + 1
 
 
 def test_a_partly_valid_bundle_writes_nothing(database: Database) -> None:
     """Everything but the last circuit is good; not one row of it may stay."""
     run_in_transaction(database, lambda session: load_bundle(session, _base_record()))
     with database.read() as session:
-        from plantdb.records.bundle import dump_bundle
-        from plantdb.records.summary import record_counts
-
         before, counts = dump_bundle(session), record_counts(session)
     bundle = ashgrove()
     put("circuits[1].z", "CO-P1:5")(bundle)

@@ -62,5 +62,5 @@ def test_a_partial_bundle_adds_to_the_record(database: Database) -> None:
         "circuits": whole["circuits"],
     }
     counts = run_in_transaction(database, lambda s: load_bundle(s, rest))
-    assert counts == {"splices": 1, "terminations": 16, "circuits": 2}
+    assert counts == {"cuts": 1, "splices": 1, "terminations": 16, "circuits": 2}
     assert len(_dump(database)["terminations"]) == 16

@@ -268,13 +268,11 @@ def test_a_broken_circuit_still_shows_where_its_a_end_reaches(database: Database
     """Safety: a circuit whose record no longer reaches Z is still named at a cut or an open
     closure on what its A end reaches, marked as incomplete."""
     bundle = ashgrove()
-    bundle.data["terminations"] = [t for t in bundle.data["terminations"]
-                                   if t["port"] != "PR-P1:1"]
+    bundle.data["terminations"] = [t for t in bundle.data["terminations"] if t["port"] != "PR-P1:1"]
     _load(database, bundle)
     circuits = _impact(database, span="S1")["circuits"]
     broken = next(c for c in circuits if c["label"] == "AG-2")
     assert broken["path_state"] == "incomplete"
     strand = next(s for s in _live(database, "AC-1")["strands"] if s["address"] == "F-1:5")
-    assert strand["circuits"] == [{"label": "AG-2", "status": "active",
-                                   "path_state": "incomplete"}]
+    assert strand["circuits"] == [{"label": "AG-2", "status": "active", "path_state": "incomplete"}]
     assert strand["live"]
