@@ -20,6 +20,7 @@ spoken names ("blue with black stripe", "orange with 2 black stripes"), in any l
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 
@@ -133,6 +134,7 @@ def _stripe_colour(base: Colour) -> Colour:
     return _YELLOW if base == _BLACK else _BLACK
 
 
+@functools.lru_cache(maxsize=4096)
 def marking(position: int) -> Marking:
     """The TIA-598 marking of a unit or fiber position (1-based)."""
     if isinstance(position, bool) or not isinstance(position, int) or position < 1:
@@ -184,6 +186,7 @@ def _strand_markings(
     return None, marking(position)
 
 
+@functools.lru_cache(maxsize=65536)
 def strand_colours(strand: int, fibers_per_unit: int, has_units: bool = True) -> str:
     """Colour names of a strand: "brown/blue" (unit/fiber), or "blue" in a cable without units."""
     unit, fiber = _strand_markings(strand, fibers_per_unit, has_units)

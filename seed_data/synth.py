@@ -92,6 +92,8 @@ COLUMNS: dict[str, tuple[str, ...]] = {
         "z_port_id",
         "customer",
         "path_state",
+        "a_address",
+        "z_address",
     ),
     "circuit_path_item": (
         "id",

@@ -136,6 +136,8 @@ class Trunk:
                 self.east_ports[n - 1],
                 f"Lessee {t:03d}-{n:03d}" if dark else None,
                 "complete" if self.built else "incomplete",
+                f"{sp.west_panel(t)}:{n}",
+                f"{sp.east_panel(t)}:{n}",
             )
             if not self.built:
                 # The joints are not spliced yet: what A reaches is the first cable's glass.
@@ -312,6 +314,8 @@ class Trunk:
             port,
             f"Subscriber {t:03d}-{k:02d}-{j}",
             "complete",
+            f"T{t:03d}-OLT:1/{k}",
+            f"P{t:03d}-{k:02d}-{j}-NID:1",
         )
         number = self.plan.backbone_strands + k
         items: list[tuple[Any, ...]] = [

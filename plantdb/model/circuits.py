@@ -32,8 +32,12 @@ class Circuit(Base):
     z_port_id: Mapped[int | None] = mapped_column(ForeignKey("port.id"), index=True)
     customer: Mapped[str | None] = mapped_column(String(200))
     notes: Mapped[str | None] = mapped_column(Text)
-    # Kept by plantdb.trace.circuits whenever the record changes under the circuit.
+    # Kept by plantdb.trace.circuits whenever the record changes under the circuit: how far
+    # the path reaches, and the two ends' addresses (so answers listing hundreds of circuits
+    # need not join four tables per circuit to name them).
     path_state: Mapped[str | None] = mapped_column(String(16))
+    a_address: Mapped[str | None] = mapped_column(String(100))
+    z_address: Mapped[str | None] = mapped_column(String(100))
     path_note: Mapped[str | None] = mapped_column(Text)
 
 
@@ -49,7 +53,8 @@ class CircuitPathItem(Base):
     __table_args__ = (
         CheckConstraint("lo_seq IS NULL OR lo_seq <= hi_seq", name="seq_order"),
         Index("ix_circuit_path_item_strand", "strand_id", "lo_seq", "hi_seq"),
-        Index("ix_circuit_path_item_cable", "cable_id", "lo_index", "hi_index"),
+        # Covering: cut impact finds the circuits on a cable's span from the index alone.
+        Index("ix_circuit_path_item_cable", "cable_id", "lo_index", "hi_index", "circuit_id"),
     )
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)

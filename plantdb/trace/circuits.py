@@ -19,6 +19,7 @@ from sqlalchemy.orm import Session
 from plantdb.errors import PlantError
 from plantdb.model import Circuit, CircuitPathItem, CircuitStatus
 from plantdb.trace.elements import TracedPath
+from plantdb.trace.rawsql import RawSql
 from plantdb.trace.reader import PlantReader
 from plantdb.trace.tracing import circuit_path
 
@@ -91,7 +92,15 @@ def refresh_circuits(session: Session, circuit_ids: Iterable[int] | None = None)
             # a cut or an opened closure there still names it.
             for partial in every:
                 rows += _items(reader, circuit_id, partial)
-        states.append({"id": circuit_id, "path_state": state, "path_note": note})
+        states.append(
+            {
+                "id": circuit_id,
+                "path_state": state,
+                "path_note": note,
+                "a_address": reader.port(a_port).address,
+                "z_address": reader.port(z_port).address if z_port else None,
+            }
+        )
     if rows:
         session.execute(insert(CircuitPathItem), rows)
     if states:
@@ -127,24 +136,29 @@ def refresh_affected(
     return refresh_circuits(session, touched)
 
 
+_LIT_STRAND = (
+    "SELECT i.strand_id, i.lo_seq, i.hi_seq, i.port_id, c.label, c.status"
+    " FROM circuit_path_item i JOIN circuit c ON c.id = i.circuit_id WHERE i.strand_id = ?"
+)
+_LIT_PORT = (
+    "SELECT i.strand_id, i.lo_seq, i.hi_seq, i.port_id, c.label, c.status"
+    " FROM circuit_path_item i JOIN circuit c ON c.id = i.circuit_id WHERE i.port_id = ?"
+)
+
+
 def mark_lit(session: Session, paths: list[TracedPath]) -> None:
     """Mark each fiber element (and port) that an active circuit's path uses, naming them."""
     strands = {e.refs["strand_id"] for p in paths for e in p.elements if e.kind == "fiber"}
     ports = {e.refs["port_id"] for p in paths for e in p.elements if "port_id" in e.refs}
     if not strands and not ports:
         return
-    rows = session.execute(
-        select(
-            CircuitPathItem.strand_id,
-            CircuitPathItem.lo_seq,
-            CircuitPathItem.hi_seq,
-            CircuitPathItem.port_id,
-            Circuit.label,
-            Circuit.status,
-        )
-        .join(Circuit, Circuit.id == CircuitPathItem.circuit_id)
-        .where(or_(CircuitPathItem.strand_id.in_(strands), CircuitPathItem.port_id.in_(ports)))
-    ).all()
+    sql = RawSql(session)
+    rows: list[Any] = []
+    # One query per strand or port, on its index: few rows each, no large IN lists.
+    for strand_id in sorted(strands):
+        rows += sql.rows(_LIT_STRAND, (strand_id,))
+    for port_id in sorted(ports):
+        rows += sql.rows(_LIT_PORT, (port_id,))
     by_strand: dict[int, list[tuple[int, int, str, str]]] = defaultdict(list)
     by_port: dict[int, list[tuple[str, str]]] = defaultdict(list)
     for strand_id, lo, hi, port_id, label, status in rows:

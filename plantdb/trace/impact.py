@@ -28,27 +28,14 @@ from plantdb.model import (
 from plantdb.safety import IMPACT_CAUTION
 from plantdb.trace.rawsql import RawSql
 
-_STATUS_ORDER = [
-    s.value
-    for s in (
-        CircuitStatus.ACTIVE,
-        CircuitStatus.OUT_OF_SERVICE,
-        CircuitStatus.RESERVED,
-        CircuitStatus.PLANNED,
-        CircuitStatus.RETIRED,
-    )
-]
-
+ACTIVE = CircuitStatus.ACTIVE.value
 
 # One row per circuit with both ends named: circuits are picked by their kept path items.
 _CIRCUITS = (
-    "SELECT c.label, c.status, c.kind, COALESCE(pa.label, ea.label) || ':' || a.name,"
-    " COALESCE(pz.label, ez.label) || ':' || z.name, c.customer, c.path_state"
-    " FROM circuit c JOIN port a ON a.id = c.a_port_id"
-    " LEFT JOIN panel pa ON pa.id = a.panel_id LEFT JOIN equipment ea ON ea.id = a.equipment_id"
-    " LEFT JOIN port z ON z.id = c.z_port_id"
-    " LEFT JOIN panel pz ON pz.id = z.panel_id LEFT JOIN equipment ez ON ez.id = z.equipment_id"
-    " WHERE c.id IN (SELECT circuit_id FROM circuit_path_item WHERE {where})"
+    "SELECT c.label, c.status, c.kind, c.a_address, c.z_address, c.customer, c.path_state"
+    " FROM circuit c WHERE c.id IN (SELECT circuit_id FROM circuit_path_item WHERE {where})"
+    " ORDER BY CASE c.status WHEN 'active' THEN 0 WHEN 'out_of_service' THEN 1"
+    " WHEN 'reserved' THEN 2 WHEN 'planned' THEN 3 ELSE 4 END, c.label"
 )
 # A piece of glass of a cable runs over path positions lo_index..hi_index.
 _COVERS = "(cable_id = ? AND lo_index <= ? AND hi_index >= ?)"
@@ -63,14 +50,12 @@ _AT_SPLITTERS = (
 )
 
 
-def _circuit_rows(
-    session: Session, conditions: list[str], params: list[Any]
-) -> list[dict[str, Any]]:
+def _circuit_rows(sql: RawSql, conditions: list[str], params: list[Any]) -> list[dict[str, Any]]:
     """Circuits whose kept paths meet any of the conditions, active first."""
     if not conditions:
         return []
     # Assembled from the fixed fragments above only; every value is bound as a parameter.
-    sql = _CIRCUITS.format(where=" OR ".join(conditions))
+    statement = _CIRCUITS.format(where=" OR ".join(conditions))
     circuits = [
         {
             "label": label,
@@ -83,28 +68,29 @@ def _circuit_rows(
             # but what its A end still reaches runs through here.
             "path_state": state,
         }
-        for label, status, kind, a, z, customer, state in RawSql(session).rows(sql, params)
+        for label, status, kind, a, z, customer, state in sql.rows(statement, params)
     ]
-    circuits.sort(key=lambda c: (_STATUS_ORDER.index(str(c["status"])), str(c["label"])))
     return circuits
 
 
+_PLACED = (
+    "SELECT cs.cable_id, cs.seq, c.label, c.fiber_count FROM span s"
+    " JOIN cable_span cs ON cs.span_id = s.id JOIN cable c ON c.id = cs.cable_id"
+    " WHERE s.label = ? ORDER BY c.label"
+)
+
+
 def _span_impact(session: Session, label: str) -> dict[str, Any]:
-    span_id = session.scalar(select(Span.id).where(Span.label == label))
-    if span_id is None:
+    sql = RawSql(session)
+    placed = sql.rows(_PLACED, (label,))
+    if not placed and not sql.rows("SELECT id FROM span WHERE label = ?", (label,)):
         raise NotFound(f"no span is labelled {label}")
-    placed = session.execute(
-        select(CableSpan.cable_id, CableSpan.seq, Cable.label, Cable.fiber_count)
-        .join(Cable, Cable.id == CableSpan.cable_id)
-        .where(CableSpan.span_id == span_id)
-        .order_by(Cable.label)
-    ).all()
     # The cable's span at position k lies between path positions k and k + 1: a piece of
     # glass runs through it when it spans both.
     params: list[Any] = []
     for cable_id, seq, _label, _count in placed:
         params += [cable_id, seq, seq + 1]
-    circuits = _circuit_rows(session, [_COVERS] * len(placed), params)
+    circuits = _circuit_rows(sql, [_COVERS] * len(placed), params)
     return {
         "target": label,
         "kind": "span",
@@ -178,7 +164,7 @@ def _structure_impact(session: Session, label: str) -> dict[str, Any]:
         "kind": "structure",
         "cables": [c[1] for c in cables],
         "strands": sum(c[2] for c in cables),
-        "circuits": _circuit_rows(session, conditions, params),
+        "circuits": _circuit_rows(RawSql(session), conditions, params),
         "spans": spans,
     }
 
@@ -190,7 +176,7 @@ def impact_document(
     if (span is None) == (structure is None):
         raise PlantError("give exactly one place: --span LABEL or --structure LABEL")
     document = _span_impact(session, span) if span else _structure_impact(session, structure or "")
-    active = [c for c in document["circuits"] if c["status"] == CircuitStatus.ACTIVE.value]
+    active = [c for c in document["circuits"] if c["status"] == ACTIVE]
     document["summary"] = {
         "circuits": len(document["circuits"]),
         "active": len(active),

@@ -11,118 +11,97 @@ from __future__ import annotations
 from collections import defaultdict
 from typing import Any
 
-from sqlalchemy import and_, select
-from sqlalchemy.orm import Session, aliased
+from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from plantdb.colours import marking, strand_colours
 from plantdb.errors import NotFound
 from plantdb.model import (
     Cable,
-    Circuit,
-    CircuitPathItem,
     CircuitStatus,
     Closure,
-    Cut,
-    FiberEnd,
-    Splice,
     Station,
-    Strand,
     Structure,
-    Tray,
 )
 from plantdb.safety import CLOSURE_CAUTION
+from plantdb.trace.rawsql import RawSql
 from plantdb.trace.reader import CableRow, PlantReader
 
+# Each splice at a station with its other end named in the same row: the other strand's
+# cable and number, whether that end is at its cable's own end (then no /A or /B), or the leg.
+_SPLICES = (
+    "SELECT e.strand_id, e.side, y.number, s.slot, s.loss_db, oc.label, os.number, o.side,"
+    " NOT EXISTS (SELECT 1 FROM station b WHERE b.cable_id = ost.cable_id AND b.seq < ost.seq)"
+    " OR NOT EXISTS (SELECT 1 FROM station b WHERE b.cable_id = ost.cable_id"
+    " AND b.seq > ost.seq), sp.label, leg.name"
+    " FROM fiber_end e JOIN splice s ON s.id = e.splice_id JOIN tray y ON y.id = s.tray_id"
+    " JOIN fiber_end o ON o.splice_id = e.splice_id AND o.splice_side <> e.splice_side"
+    " LEFT JOIN strand os ON os.id = o.strand_id LEFT JOIN cable oc ON oc.id = os.cable_id"
+    " LEFT JOIN station ost ON ost.id = o.station_id"
+    " LEFT JOIN splitter_leg leg ON leg.id = o.leg_id"
+    " LEFT JOIN splitter sp ON sp.id = leg.splitter_id"
+    " WHERE e.station_id = ?"
+)
+_CIRCUITS = (
+    "SELECT i.strand_id, c.label, c.status, c.path_state FROM circuit_path_item i"
+    " JOIN circuit c ON c.id = i.circuit_id"
+    " WHERE i.cable_id = ? AND i.lo_seq <= ? AND i.hi_seq >= ? ORDER BY c.label"
+)
 
-def _splices_here(session: Session, station_id: int) -> dict[int | None, list[dict[str, Any]]]:
+
+def _splices_here(sql: RawSql, station_id: int) -> dict[int, list[dict[str, Any]]]:
     """Strand id -> the splices of its ends at this station (tray, slot, side, other end)."""
-    other = aliased(FiberEnd)
-    rows = session.execute(
-        select(
-            FiberEnd.strand_id,
-            FiberEnd.side,
-            Tray.number,
-            Splice.slot,
-            Splice.loss_db,
-            other.strand_id,
-            other.station_id,
-            other.side,
-            other.leg_id,
-        )
-        .join(Splice, Splice.id == FiberEnd.splice_id)
-        .join(Tray, Tray.id == Splice.tray_id)
-        .join(
-            other,
-            and_(other.splice_id == FiberEnd.splice_id, other.splice_side != FiberEnd.splice_side),
-        )
-        .where(FiberEnd.station_id == station_id)
-    ).all()
-    found: dict[int | None, list[dict[str, Any]]] = defaultdict(list)
-    for strand_id, side, tray, slot, loss, o_strand, o_station, o_side, o_leg in rows:
+    found: dict[int, list[dict[str, Any]]] = defaultdict(list)
+    for (
+        strand_id,
+        side,
+        tray,
+        slot,
+        loss,
+        o_cable,
+        o_number,
+        o_side,
+        o_end,
+        o_splitter,
+        o_leg,
+    ) in sql.rows(_SPLICES, (station_id,)):
+        if o_leg is not None:
+            other = f"{o_splitter}:{o_leg}"
+        else:
+            other = f"{o_cable}:{o_number}" + ("" if o_end else f"/{o_side}")
         found[strand_id].append(
-            {
-                "tray": tray,
-                "slot": slot,
-                "side": str(side),
-                "loss_db": loss,
-                "_other": (o_strand, o_station, str(o_side) if o_side else None, o_leg),
-            }
+            {"tray": tray, "slot": slot, "side": side, "loss_db": loss, "to": other}
         )
     return found
 
 
-def _circuits_here(
-    session: Session, cable_id: int, seq: int
-) -> dict[int | None, list[dict[str, str]]]:
+def _circuits_here(sql: RawSql, cable_id: int, seq: int) -> dict[int, list[dict[str, str]]]:
     """Strand id -> circuits whose kept path uses that strand's glass at this station."""
-    rows = session.execute(
-        select(CircuitPathItem.strand_id, Circuit.label, Circuit.status, Circuit.path_state)
-        .join(Circuit, Circuit.id == CircuitPathItem.circuit_id)
-        .where(
-            CircuitPathItem.cable_id == cable_id,
-            CircuitPathItem.lo_seq <= seq,
-            CircuitPathItem.hi_seq >= seq,
-        )
-        .order_by(Circuit.label)
-    ).all()
-    found: dict[int | None, list[dict[str, str]]] = defaultdict(list)
-    for strand_id, label, status, state in rows:
-        entry = {"label": label, "status": str(status)}
+    found: dict[int, list[dict[str, str]]] = defaultdict(list)
+    for strand_id, label, status, state in sql.rows(_CIRCUITS, (cable_id, seq, seq)):
+        entry = {"label": label, "status": status}
         if state != "complete":
-            entry["path_state"] = str(state)
+            entry["path_state"] = state
         if entry not in found[strand_id]:
             found[strand_id].append(entry)
     return found
 
 
-def _name_other(reader: PlantReader, other: tuple[Any, ...]) -> str:
-    strand_id, station_id, side, leg_id = other
-    if leg_id is not None:
-        splitter, name = reader.splitter_of_leg(leg_id)
-        return f"{splitter.label}:{name}"
-    cable, number = reader.strand(strand_id)
-    station = cable.station(station_id)
-    return f"{cable.label}:{number}" + ("" if cable.is_end(station) else f"/{side}")
-
-
-def _cable_strands(
-    session: Session, reader: PlantReader, cable: CableRow, station_id: int
-) -> list[dict[str, Any]]:
+def _cable_strands(sql: RawSql, cable: CableRow, station_id: int) -> list[dict[str, Any]]:
     station = cable.station(station_id)
     at_end = cable.is_end(station)
-    cuts = set(session.scalars(select(Cut.strand_id).where(Cut.station_id == station_id)))
-    splices = _splices_here(session, station_id)
-    circuits = _circuits_here(session, cable.id, station.seq)
+    cuts = {r[0] for r in sql.rows("SELECT strand_id FROM cut WHERE station_id = ?", (station_id,))}
+    splices = _splices_here(sql, station_id)
+    circuits = _circuits_here(sql, cable.id, station.seq)
     has_units = cable.construction != "central_core"
     per_unit = cable.fibers_per_unit if has_units else cable.units * cable.fibers_per_unit
     out = []
-    for strand_id, number in session.execute(
-        select(Strand.id, Strand.number).where(Strand.cable_id == cable.id).order_by(Strand.number)
+    for strand_id, number in sql.rows(
+        "SELECT id, number FROM strand WHERE cable_id = ? ORDER BY number", (cable.id,)
     ):
         joined = splices.get(strand_id, [])
-        for splice in joined:
-            splice["to"] = _name_other(reader, splice.pop("_other"))
-            if at_end:
+        if at_end:
+            for splice in joined:
                 splice.pop("side")
         if joined:
             state = "spliced"
@@ -159,6 +138,7 @@ def live_document(session: Session, closure: str) -> dict[str, Any]:
         raise NotFound(f"no closure is labelled {closure}")
     closure_id, structure = row
     reader = PlantReader(session)
+    sql = reader.sql
     stations = session.execute(
         select(Station.id, Station.cable_id)
         .join(Cable, Cable.id == Station.cable_id)
@@ -179,7 +159,7 @@ def live_document(session: Session, closure: str) -> dict[str, Any]:
                 "toward_b": cable.stations[-1].place,
             }
         )
-        strands += _cable_strands(session, reader, cable, station_id)
+        strands += _cable_strands(sql, cable, station_id)
     counts: dict[str, int] = defaultdict(int)
     for strand in strands:
         counts[strand["state"]] += 1

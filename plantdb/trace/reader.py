@@ -42,6 +42,18 @@ _END = (
     "SELECT id, strand_id, station_id, side, leg_id, splice_id, splice_side, port_id,"
     " termination_method FROM fiber_end"
 )
+# A connected end with, in the same row, the splice holding it and the end on its other side
+# (and that end's strand): one query per hop instead of three.
+_JOINED = (
+    "SELECT e.id, e.strand_id, e.station_id, e.side, e.leg_id, e.splice_id, e.splice_side,"
+    " e.port_id, e.termination_method, o.id, o.strand_id, o.station_id, o.side, o.leg_id,"
+    " o.splice_id, o.splice_side, o.port_id, o.termination_method, c.label, t.label, y.number,"
+    " s.slot, s.method, s.loss_db, os.cable_id, os.number FROM fiber_end e"
+    " LEFT JOIN fiber_end o ON o.splice_id = e.splice_id AND o.splice_side <> e.splice_side"
+    " LEFT JOIN splice s ON s.id = e.splice_id LEFT JOIN closure c ON c.id = s.closure_id"
+    " LEFT JOIN structure t ON t.id = c.structure_id LEFT JOIN tray y ON y.id = s.tray_id"
+    " LEFT JOIN strand os ON os.id = o.strand_id"
+)
 
 SQL = {
     "panel_port": "SELECT p.id FROM panel o JOIN port p ON p.panel_id = o.id"
@@ -73,8 +85,8 @@ SQL = {
     "fiber_type": "SELECT name, mode, standard FROM fiber_type WHERE id = ?",
     "fiber_values": "SELECT wavelength_nm, attenuation_max, attenuation_typical, group_index"
     " FROM fiber_type_wavelength WHERE fiber_type_id = ?",
-    "end_at": _END + " WHERE strand_id = ? AND station_id = ? AND side = ?",
-    "leg_end": _END + " WHERE leg_id = ?",
+    "end_at": _JOINED + " WHERE e.strand_id = ? AND e.station_id = ? AND e.side = ?",
+    "leg_end": _JOINED + " WHERE e.leg_id = ?",
     "termination": _END + " WHERE port_id = ?",
     "other_side": "SELECT e.id, e.strand_id, e.station_id, e.side, e.leg_id, e.splice_id,"
     " e.splice_side, e.port_id, e.termination_method, c.label, t.label, y.number,"
@@ -120,6 +132,7 @@ class PlantReader:
         self._leg_splitter: dict[int, tuple[int, str]] = {}
         self._fiber_types: dict[int, tuple[str, str, str | None]] = {}
         self._fiber_values: dict[int, dict[int, tuple[Any, Any, Any]]] = {}
+        self._peers: dict[int, tuple[SpliceRow, EndRow]] = {}
 
     def rows(self, name: str, *params: Any) -> list[Any]:
         """Run one of the fixed queries."""
@@ -223,19 +236,33 @@ class PlantReader:
         return [lon, lat]
 
     # -- connections ---------------------------------------------------------------------
+    def _joined(self, row: Any) -> EndRow:
+        """The end of a joined row, remembering its splice and other side for `other_side`."""
+        end = _end(row)
+        if row[9] is not None:
+            splice = SpliceRow(row[5], row[18], row[19], row[20], row[21], row[22], row[23])
+            self._peers[end.id] = (splice, _end(row[9:18]))
+            if row[10] is not None:
+                self._strand_cable[row[10]] = (row[24], row[25])
+        return end
+
     def end_at(self, strand_id: int, station_id: int, side: str) -> EndRow | None:
         row = self.row("end_at", strand_id, station_id, side)
-        return _end(row) if row else None
+        return self._joined(row) if row else None
 
     def leg_end(self, leg_id: int) -> EndRow | None:
         row = self.row("leg_end", leg_id)
-        return _end(row) if row else None
+        return self._joined(row) if row else None
 
     def other_side(self, end: EndRow) -> tuple[SpliceRow, EndRow]:
-        """The splice holding `end`, and the end on its other side (one query)."""
-        r = self.row("other_side", end.splice_id, end.splice_side)
-        splice = SpliceRow(r[5], r[9], r[10], r[11], r[12], r[13], r[14])
-        return splice, _end(r)
+        """The splice holding `end`, and the end on its other side."""
+        if end.id not in self._peers:
+            r = self.row("other_side", end.splice_id, end.splice_side)
+            self._peers[end.id] = (
+                SpliceRow(r[5], r[9], r[10], r[11], r[12], r[13], r[14]),
+                _end(r),
+            )
+        return self._peers[end.id]
 
     def termination(self, port_id: int) -> EndRow | None:
         row = self.row("termination", port_id)
