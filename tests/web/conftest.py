@@ -1,0 +1,124 @@
+"""Fixtures for the web tests: apps on the demo town (read-only tests share one per backend)
+and on small hand-built networks (tests that write get a fresh database each)."""
+
+from __future__ import annotations
+
+import os
+import shutil
+from collections.abc import Callable, Iterator
+from pathlib import Path
+from typing import Any
+
+import pytest
+from flask import Flask
+from flask.testing import FlaskClient
+from sqlalchemy import create_engine, text
+from sqlalchemy.engine import make_url
+
+from plantdb.db import Database, run_in_transaction, upgrade_schema
+from plantdb.records.bundle import load_bundle
+from seed_data.demo_town import build_demo_bundle
+from tests.conftest import BACKENDS, NO_POSTGRES_REASON, POSTGRES_URL, REQUIRE_POSTGRES
+from tests.networks import Bundle
+from webui import create_app
+
+
+def load_into(url: str, data: dict[str, Any]) -> None:
+    """Load a bundle into the database at `url`."""
+    database = Database(url)
+    try:
+        run_in_transaction(database, lambda session: load_bundle(session, data))
+    finally:
+        database.dispose()
+
+
+@pytest.fixture(scope="session")
+def demo_sqlite(tmp_path_factory: pytest.TempPathFactory, sqlite_template: Path) -> Path:
+    """A SQLite file holding the demo town, built once per test session (copy it to write)."""
+    path = tmp_path_factory.mktemp("demo") / "demo.sqlite"
+    shutil.copyfile(sqlite_template, path)
+    load_into(f"sqlite:///{path}", build_demo_bundle())
+    return path
+
+
+def _demo_postgres() -> Iterator[str]:
+    if not POSTGRES_URL:
+        if REQUIRE_POSTGRES:
+            pytest.fail("PLANTDB_REQUIRE_POSTGRES=1 but PLANTDB_TEST_POSTGRES_URL is not set")
+        pytest.skip(NO_POSTGRES_REASON)
+    worker = os.environ.get("PYTEST_XDIST_WORKER", "main")
+    schema = f"plantdb_webdemo_{worker}_{os.getpid()}"
+    admin = create_engine(POSTGRES_URL)
+    with admin.begin() as connection:
+        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
+        connection.execute(text(f'CREATE SCHEMA "{schema}"'))
+    url = make_url(POSTGRES_URL).update_query_dict({"options": f"-csearch_path={schema}"})
+    rendered = url.render_as_string(hide_password=False)
+    database = Database(rendered)
+    upgrade_schema(database.engine)
+    database.dispose()
+    load_into(rendered, build_demo_bundle())
+    yield rendered
+    with admin.begin() as connection:
+        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
+    admin.dispose()
+
+
+@pytest.fixture(scope="session")
+def demo_postgres() -> Iterator[str]:
+    """A PostgreSQL schema of this worker's own holding the demo town (never written to)."""
+    yield from _demo_postgres()
+
+
+@pytest.fixture(scope="session", params=BACKENDS)
+def demo_url(request: pytest.FixtureRequest) -> str:
+    """The URL of a database holding the demo town; tests using it must only read."""
+    if request.param == "sqlite":
+        path: Path = request.getfixturevalue("demo_sqlite")
+        return f"sqlite:///{path}"
+    url: str = request.getfixturevalue("demo_postgres")
+    return url
+
+
+@pytest.fixture(scope="session")
+def demo_app(demo_url: str) -> Iterator[Flask]:
+    """An app on the demo town, shared by the read-only tests of one backend."""
+    app = create_app({"DATABASE_URL": demo_url, "TESTING": True})
+    yield app
+    app.extensions["plantdb.database"].dispose()
+
+
+@pytest.fixture
+def client(demo_app: Flask) -> FlaskClient:
+    """A test client of the demo-town app (read-only tests)."""
+    return demo_app.test_client()
+
+
+@pytest.fixture
+def make_app(db_url: str) -> Iterator[Callable[..., Flask]]:
+    """Build an app on a fresh database after loading a bundle into it (tests that write)."""
+    apps: list[Flask] = []
+
+    def build(bundle: Bundle | dict[str, Any] | None = None, **config: Any) -> Flask:
+        if bundle is not None:
+            load_into(db_url, bundle.data if isinstance(bundle, Bundle) else bundle)
+        app = create_app({"DATABASE_URL": db_url, "TESTING": True, **config})
+        apps.append(app)
+        return app
+
+    yield build
+    for app in apps:
+        app.extensions["plantdb.database"].dispose()
+
+
+def page_text(response: Any) -> str:
+    """A response body as text."""
+    return str(response.get_data(as_text=True))
+
+
+@pytest.hookimpl(wrapper=True, tryfirst=True)
+def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo[None]) -> Any:
+    """Keep each phase's report on the test item, so a browser fixture can tell a failure."""
+    report = yield
+    setattr(item, f"report_{report.when}", report)
+    return report

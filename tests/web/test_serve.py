@@ -1,0 +1,79 @@
+"""`plantdb serve`: starts the app under waitress on the asked address, refuses a database it
+cannot serve, and keeps the core package free of the web app."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+from typing import Any
+
+import pytest
+from click.testing import CliRunner
+from flask import Flask
+
+from plantdb.cli import cli
+
+
+@pytest.fixture
+def served(monkeypatch: pytest.MonkeyPatch) -> dict[str, Any]:
+    """Stands in for waitress.serve: records what it was asked to serve instead of blocking."""
+    import waitress
+
+    calls: dict[str, Any] = {}
+
+    def serve(app: Any, **options: Any) -> None:
+        calls["app"] = app
+        calls.update(options)
+
+    monkeypatch.setattr(waitress, "serve", serve)
+    return calls
+
+
+def test_serve_runs_the_app_under_waitress(db_url: str, served: dict[str, Any]) -> None:
+    result = CliRunner().invoke(cli, ["serve", "--db", db_url])
+    assert result.exit_code == 0, result.output
+    assert isinstance(served["app"], Flask)
+    assert (served["host"], served["port"]) == ("127.0.0.1", 5000)  # the contract's default
+    assert "serving" in result.output and "http://127.0.0.1:5000/" in result.output
+    app: Flask = served["app"]
+    assert app.config["TILE_URL"] is None  # no base map, no internet needed
+    client = app.test_client()
+    assert client.get("/api/v1/map?bbox=0,0,1,1").get_json()["features"] == []
+    assert "The record holds no structures yet" in client.get("/").get_data(as_text=True)
+
+
+def test_serve_options(
+    db_url: str, served: dict[str, Any], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("PLANTDB_TILE_URL", "https://tiles.invalid/{z}/{x}/{y}.png")
+    argv = ["serve", "--db", db_url, "--host", "0.0.0.0", "--port", "8123", "--read-only"]
+    result = CliRunner().invoke(cli, [*argv, "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.output) == {
+        "serving": "http://0.0.0.0:8123/",
+        "database": db_url,
+        "read_only": True,
+    }
+    assert (served["host"], served["port"]) == ("0.0.0.0", 8123)
+    assert served["app"].config["READ_ONLY"] is True
+    assert served["app"].config["TILE_URL"] == "https://tiles.invalid/{z}/{x}/{y}.png"
+
+
+def test_serve_refuses_a_database_it_cannot_serve(tmp_path: Path, served: dict[str, Any]) -> None:
+    url = f"sqlite:///{tmp_path / 'empty.sqlite'}"
+    result = CliRunner().invoke(cli, ["serve", "--db", url])
+    assert result.exit_code == 1
+    assert "is not initialised; run `plantdb init` first" in result.stderr
+    assert "app" not in served
+    bad_port = CliRunner().invoke(cli, ["serve", "--db", url, "--port", "70000"])
+    assert bad_port.exit_code == 2
+
+
+def test_core_package_does_not_import_the_web_app() -> None:
+    code = "import sys, plantdb.cli; print('webui' in sys.modules, 'flask' in sys.modules)"
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.split() == ["False", "False"]
