@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import functools
 from typing import Any
+from urllib.parse import quote
 
-from flask import Flask, current_app, url_for
+from flask import Flask, current_app, g, url_for
+from markupsafe import Markup, escape
 
 from plantdb.colours import TIA_598, Marking, marking, unit_and_position
 from plantdb.model import ConstructionKind
@@ -20,10 +23,22 @@ PAGES = {
 }
 
 
+_SLOT = "LABEL-SLOT"
+
+
 def thing_url(kind: str, label: str) -> str | None:
-    """The page of a thing by kind and label; None for a kind without a page."""
+    """The page of a thing by kind and label; None for a kind without a page.
+
+    A busy closure page links hundreds of things: the route is built once per kind and
+    request, and each label quoted as werkzeug's path converter would (same URL as url_for).
+    """
     endpoint = PAGES.get(kind)
-    return url_for(endpoint, label=label) if endpoint else None
+    if endpoint is None:
+        return None
+    routes: dict[str, str] = g.setdefault("thing_routes", {})
+    if kind not in routes:
+        routes[kind] = url_for(endpoint, label=_SLOT)
+    return routes[kind].replace(_SLOT, quote(str(label), safe="!$&'()*+,/:;=@"))
 
 
 def metres(value: float | None) -> str:
@@ -50,6 +65,7 @@ def strand_markings(
     return marking(unit), marking(position)
 
 
+@functools.lru_cache(maxsize=1024)
 def swatch_class(mark: Marking) -> str:
     """CSS classes of a swatch: the base colour, and the stripe colour when striped."""
     classes = f"swatch tia-{TIA_598.index(mark.base) + 1}"
@@ -62,6 +78,41 @@ def _context() -> dict[str, Any]:
     return {"read_only": bool(current_app.config.get("READ_ONLY"))}
 
 
+def _swatch_html(mark: Marking | None) -> str:
+    if mark is None:
+        return ""
+    return f'<span class="{escape(swatch_class(mark))}" aria-hidden="true"></span>'
+
+
+@functools.lru_cache(maxsize=8192)
+def colours_html(unit: Marking | None, fiber: Marking | None) -> Markup:
+    """A strand's colours as swatches with their names and codes (as the `colours` macro).
+
+    Built in Python: a busy closure page shows a thousand of these, and nested template
+    macros cost several times more per call.
+    """
+    if fiber is None:
+        return Markup("")
+    names = f"{_swatch_html(unit)}{escape(unit.name)} / " if unit is not None else ""
+    codes = f"{escape(unit.abbrev)}/" if unit is not None else ""
+    return Markup(
+        f'<span class="colours">{names}{_swatch_html(fiber)}{escape(fiber.name)}\n'
+        f'<span class="abbr">({codes}{escape(fiber.abbrev)})</span></span>'
+    )
+
+
+def circuit_links_html(circuits: list[dict[str, Any]]) -> Markup:
+    """Links to circuits with their status badges (as the `circuit_links` macro)."""
+    parts = []
+    for circuit in circuits:
+        label, status = str(circuit["label"]), str(circuit["status"])
+        parts.append(
+            f'<a href="{escape(thing_url("circuit", label) or "")}">{escape(label)}</a> '
+            f'<span class="status status-{escape(status)}">{escape(words(status))}</span>'
+        )
+    return Markup(", ".join(parts))
+
+
 def install(app: Flask) -> None:
     """Template filters and globals (globals, so imported macros see them too)."""
     app.add_template_filter(metres, "metres")
@@ -72,5 +123,7 @@ def install(app: Flask) -> None:
         marking=marking,
         swatch_class=swatch_class,
         strand_markings=strand_markings,
+        colours_html=colours_html,
+        circuit_links_html=circuit_links_html,
     )
     app.context_processor(_context)
