@@ -185,15 +185,15 @@ _PANELS: tuple[tuple[str, str, int, str, str], ...] = (
 _SWITCH_PORTS = [str(n) for n in range(1, 9)]
 _EQUIPMENT: list[Bundle] = [
     # GPON class B+ optics: launch +1.5..+5 dBm, sensitivity -28 dBm (ITU-T G.984.2, memory).
-    {"label": "QM-OLT1", "at": "QM-CO", "ports": ["1/1", "1/2", "1/3", "1/4"],
+    {"label": "QM-OLT1", "at": "QM-CO", "ports": ["1/1", "1/2", "1/3", "1/4"], "role": "olt",
      "tx_dbm": 3.0, "rx_sensitivity_dbm": -28.0},
     # 10 km single-mode Ethernet optics: launch up to +0.5 dBm, sensitivity -14.4 dBm (memory).
-    {"label": "QM-SW-CO1", "at": "QM-CO", "ports": _SWITCH_PORTS,
+    {"label": "QM-SW-CO1", "at": "QM-CO", "ports": _SWITCH_PORTS, "role": "switch",
      "tx_dbm": 0.5, "rx_sensitivity_dbm": -14.4},
-    {"label": "QM-SW-HUTE", "at": "QM-HUT-E", "ports": _SWITCH_PORTS,
+    {"label": "QM-SW-HUTE", "at": "QM-HUT-E", "ports": _SWITCH_PORTS, "role": "switch",
      "tx_dbm": 0.5, "rx_sensitivity_dbm": -14.4},
     # Ports 1-2 single-mode uplinks, 3-6 short-reach multimode for the tenants' riser.
-    {"label": "QM-SW-BE1", "at": "QM-BE1", "ports": _SWITCH_PORTS[:6]},
+    {"label": "QM-SW-BE1", "at": "QM-BE1", "ports": _SWITCH_PORTS[:6], "role": "switch"},
 ]  # fmt: skip
 
 _SPLITTERS: list[Bundle] = [
