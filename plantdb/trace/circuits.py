@@ -136,14 +136,24 @@ def refresh_affected(
     return refresh_circuits(session, touched)
 
 
-_LIT_STRAND = (
+_LIT = (
     "SELECT i.strand_id, i.lo_seq, i.hi_seq, i.port_id, c.label, c.status"
-    " FROM circuit_path_item i JOIN circuit c ON c.id = i.circuit_id WHERE i.strand_id = ?"
+    " FROM circuit_path_item i JOIN circuit c ON c.id = i.circuit_id"
+    " WHERE i.strand_id IN ({strands}) OR i.port_id IN ({ports})"
 )
-_LIT_PORT = (
-    "SELECT i.strand_id, i.lo_seq, i.hi_seq, i.port_id, c.label, c.status"
-    " FROM circuit_path_item i JOIN circuit c ON c.id = i.circuit_id WHERE i.port_id = ?"
-)
+_CHUNK = 64  # ids per statement: a few statements per trace, each on its index
+
+
+def _lit_rows(sql: RawSql, strands: list[int], ports: list[int]) -> list[Any]:
+    rows: list[Any] = []
+    for start in range(0, max(len(strands), len(ports)), _CHUNK):
+        some, others = strands[start : start + _CHUNK], ports[start : start + _CHUNK]
+        # Padded to a fixed size so the statement text (and its cached plan) repeats;
+        # only "?" marks are formatted in, every id is bound as a parameter.
+        statement = _LIT.format(strands=", ".join("?" * _CHUNK), ports=", ".join("?" * _CHUNK))
+        padded = some + [-1] * (_CHUNK - len(some)) + others + [-1] * (_CHUNK - len(others))
+        rows += sql.rows(statement, padded)
+    return rows
 
 
 def mark_lit(session: Session, paths: list[TracedPath]) -> None:
@@ -152,13 +162,7 @@ def mark_lit(session: Session, paths: list[TracedPath]) -> None:
     ports = {e.refs["port_id"] for p in paths for e in p.elements if "port_id" in e.refs}
     if not strands and not ports:
         return
-    sql = RawSql(session)
-    rows: list[Any] = []
-    # One query per strand or port, on its index: few rows each, no large IN lists.
-    for strand_id in sorted(strands):
-        rows += sql.rows(_LIT_STRAND, (strand_id,))
-    for port_id in sorted(ports):
-        rows += sql.rows(_LIT_PORT, (port_id,))
+    rows = _lit_rows(RawSql(session), sorted(strands), sorted(ports))
     by_strand: dict[int, list[tuple[int, int, str, str]]] = defaultdict(list)
     by_port: dict[int, list[tuple[str, str]]] = defaultdict(list)
     for strand_id, lo, hi, port_id, label, status in rows:
