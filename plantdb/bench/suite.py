@@ -47,6 +47,16 @@ def default_database(fibers: int, seed: int) -> str:
 def prepare(url: str, fibers: int, seed: int) -> Database:
     """The database holding the synthetic plant of (fibers, seed): reused, or built now."""
     database = Database(url)
+    try:
+        _fill(database, fibers, seed)
+    except BaseException:
+        # A refused database must not leave its pooled connections to the garbage collector.
+        database.dispose()
+        raise
+    return database
+
+
+def _fill(database: Database, fibers: int, seed: int) -> None:
     current, _head = schema_revisions(database.engine)
     if current is None:
         upgrade_schema(database.engine)
@@ -65,7 +75,6 @@ def prepare(url: str, fibers: int, seed: int) -> Database:
             f"{database.url} holds a different record (synthetic plant {stored or 'none'});"
             " give an empty database or the one built with the same --fibers and --seed"
         )
-    return database
 
 
 def _busiest(database: Database) -> dict[str, Any]:
