@@ -35,6 +35,15 @@ typecheck: install
 test: lint typecheck
 	$(BIN)/pytest -n 2 --dist loadgroup
 
+# The benchmark suite at a million strands, on the embedded SQLite database and then on the
+# local PostgreSQL server (database plantdb_bench, created when missing). See
+# docs/performance.md. Building each synthetic plant takes a few minutes the first time.
+BENCH_POSTGRES_URL ?= postgresql+psycopg://postgres@127.0.0.1:5432/plantdb_bench
+bench: install
+	$(BIN)/plantdb bench --fibers 1000000
+	psql -h 127.0.0.1 -U postgres -tc "SELECT 1 FROM pg_database WHERE datname = 'plantdb_bench'" postgres | grep -q 1 || psql -h 127.0.0.1 -U postgres -c "CREATE DATABASE plantdb_bench" postgres
+	$(BIN)/plantdb bench --fibers 1000000 --db $(BENCH_POSTGRES_URL)
+
 unit: install
 	$(BIN)/pytest tests/unit -q
 

@@ -133,6 +133,15 @@ def main() -> None:
 
 
 # The commands live in their own modules; importing them registers them on `cli`.
-from plantdb import cli_commands, cli_records, cli_scale, cli_serve, cli_trace  # noqa: E402,F401
+from plantdb import (  # noqa: E402,F401
+    cli_backup,
+    cli_commands,
+    cli_history,
+    cli_people,
+    cli_records,
+    cli_scale,
+    cli_serve,
+    cli_trace,
+)
 
 __all__ = ["Invocation", "Path", "cli", "main", "plant_command", "run_in_transaction"]

@@ -2,14 +2,67 @@
 
 from __future__ import annotations
 
+import ipaddress
 import json
+import logging
 import os
+import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
 
 import click
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.errors import PlantError
+from plantdb.people import anyone_defined
+from plantdb.security_log import LOGGER_NAME
 
 ENV_TILE_URL = "PLANTDB_TILE_URL"
+
+
+def is_loopback(host: str) -> bool:
+    """True for an address only this machine can reach (127.0.0.0/8, ::1, localhost)."""
+    if host.lower() == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host.strip("[]")).is_loopback
+    except ValueError:
+        return False
+
+
+def _refuse_open_to_others(run: Invocation, host: str) -> None:
+    """With nobody defined there is no sign-in: refuse to listen where others can reach."""
+    if is_loopback(host):
+        return
+    with run.database().read() as session:
+        if anyone_defined(session):
+            return
+    raise PlantError(
+        f"--host {host}: nobody is defined, so there is no sign-in and anyone who reached the"
+        " server could change the record; it listens on 127.0.0.1 only until a person is added"
+        " (`plantdb user add NAME --role admin`)"
+    )
+
+
+@contextmanager
+def _security_log(path: Path | None) -> Iterator[None]:
+    """While serving, send the security log to a file, or to standard error."""
+    logger = logging.getLogger(LOGGER_NAME)
+    if path is None:
+        handler: logging.Handler = logging.StreamHandler(sys.stderr)
+    else:
+        handler = logging.FileHandler(path, encoding="utf-8")
+    handler.setFormatter(logging.Formatter("plantdb.security %(levelname)s %(message)s"))
+    level = logger.level
+    logger.setLevel(logging.INFO)
+    logger.addHandler(handler)
+    try:
+        yield
+    finally:
+        logger.removeHandler(handler)
+        logger.setLevel(level)
+        handler.close()
 
 
 @plant_command(cli, "serve")
@@ -36,6 +89,17 @@ ENV_TILE_URL = "PLANTDB_TILE_URL"
     help="Requests answered at once.",
 )
 @click.option("--read-only", is_flag=True, help="Refuse every change to the record.")
+@click.option(
+    "--behind-proxy",
+    is_flag=True,
+    help="Trust the X-Forwarded-For/-Proto/-Host/-Prefix headers of one reverse proxy (a TLS"
+    " proxy in front of plantdb); never without one, or clients could forge their address.",
+)
+@click.option(
+    "--security-log",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Append the security log (sign-ins, refusals) to this file (default: standard error).",
+)
 def serve_command(
     run: Invocation,
     host: str,
@@ -44,24 +108,34 @@ def serve_command(
     tile_attribution: str,
     threads: int,
     read_only: bool,
+    behind_proxy: bool,
+    security_log: Path | None,
 ) -> None:
-    """Serve the web UI at / and the JSON API under /api/v1/ (until interrupted)."""
+    """Serve the web UI at / and the JSON API under /api/v1/ (until interrupted).
+
+    While nobody is defined (`plantdb user add`) the server has no sign-in, so it listens on
+    this machine only (127.0.0.1 or ::1) and refuses any other --host.
+    """
     # Imported here: the core package never imports the web app at module level.
     from waitress import serve
 
     from webui import create_app
 
+    _refuse_open_to_others(run, host)
     app = create_app(
         {
             "DATABASE_URL": run.url,
             "TILE_URL": tile_url or os.environ.get(ENV_TILE_URL) or None,
             "TILE_ATTRIBUTION": tile_attribution,
             "READ_ONLY": read_only,
+            "BEHIND_PROXY": 1 if behind_proxy else 0,
         }
     )
     address = f"http://{host}:{port}/"
     if run.as_json:
-        click.echo(json.dumps({"serving": address, "database": run.url, "read_only": read_only}))
+        document = {"serving": address, "database": run.url, "read_only": read_only}
+        click.echo(json.dumps({**document, "behind_proxy": behind_proxy}))
     else:
         click.echo(f"plantdb: serving {run.url} at {address} (Ctrl+C to stop)")
-    serve(app, host=host, port=port, threads=threads, ident="plantdb")
+    with _security_log(security_log):
+        serve(app, host=host, port=port, threads=threads, ident="plantdb")

@@ -11,6 +11,7 @@ recipe that makes SAVEPOINT and rollback-per-test fixtures work on Python 3.11.
 from __future__ import annotations
 
 import os
+import random
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -19,10 +20,10 @@ from typing import Any, TypeVar
 
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
-from sqlalchemy.exc import DBAPIError, OperationalError
+from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError
 from sqlalchemy.orm import Session, sessionmaker
 
-from plantdb.errors import ConflictError, PlantError, SchemaError
+from plantdb.errors import ConflictError, PlantError, RaceLost, SchemaError
 
 ENV_URL = "PLANTDB_DATABASE_URL"
 DEFAULT_URL = "sqlite:///plantdb.sqlite"
@@ -115,34 +116,61 @@ class Database:
 
 # SQLSTATEs PostgreSQL raises for a transaction that lost a race and may simply be retried.
 RETRYABLE_SQLSTATES = {"40001", "40P01"}
+# PostgreSQL's unique violation: a race only where a service says so (`racing_for`).
+UNIQUE_VIOLATION = "23505"
+
+
+def _sqlstate(exc: DBAPIError) -> str | None:
+    found = getattr(exc.orig, "sqlstate", None)
+    return found if isinstance(found, str) else None
 
 
 def _retryable(exc: DBAPIError) -> bool:
-    sqlstate = getattr(exc.orig, "sqlstate", None)
-    if sqlstate in RETRYABLE_SQLSTATES:
+    if _sqlstate(exc) in RETRYABLE_SQLSTATES:
         return True
     return isinstance(exc, OperationalError) and "database is locked" in str(exc.orig)
+
+
+@contextmanager
+def racing_for(what: str) -> Iterator[None]:
+    """Within the block, a unique violation on PostgreSQL is a lost race (`RaceLost`).
+
+    Under READ COMMITTED two clerks may both check that a fiber end is free; the second to
+    insert it meets the first one's committed row. Only a service that checked those rows
+    itself may say so: elsewhere a unique violation is a mistake, not retried. (SQLite
+    serialises writers with BEGIN IMMEDIATE, so there it is never a race.)
+    """
+    try:
+        yield
+    except IntegrityError as exc:
+        if _sqlstate(exc) != UNIQUE_VIOLATION:
+            raise
+        raise RaceLost(f"{what} just now; nothing was written; try again") from exc
 
 
 def run_in_transaction(database: Database, work: Callable[[Session], T], *, attempts: int = 5) -> T:
     """Run `work` in one write transaction, committing once; retry lost races.
 
-    A serialization failure or deadlock on PostgreSQL (and a lock timeout on SQLite) rolls the
-    whole transaction back and runs `work` again from the start, so it must not have effects
-    outside the session.
+    A serialization failure or deadlock on PostgreSQL, a `RaceLost` (and a lock timeout on
+    SQLite) rolls the whole transaction back and runs `work` again from the start, so it must
+    not have effects outside the session. When every attempt loses, a `ConflictError`.
     """
     for attempt in range(1, attempts + 1):
         try:
             with database.writing() as session, session.begin():
                 return work(session)
-        except DBAPIError as exc:
-            if not _retryable(exc) or attempt == attempts:
-                if _retryable(exc):
-                    raise ConflictError(
-                        "the record is busy with another change; try again"
-                    ) from exc
+        except RaceLost:
+            if attempt == attempts:
                 raise
-            time.sleep(0.05 * 2**attempt)
+        except DBAPIError as exc:
+            if not _retryable(exc):
+                raise
+            if attempt == attempts:
+                raise ConflictError(
+                    "the record is busy with another change; nothing was written; try again"
+                ) from exc
+        # Jitter keeps two losers of the same race from retrying in lockstep.
+        time.sleep(0.05 * 2**attempt * random.uniform(0.5, 1.0))
     raise AssertionError("unreachable")
 
 

@@ -30,3 +30,8 @@ class SchemaError(PlantError):
 
 class ConflictError(PlantError):
     """Someone else changed the record first (a lost race or a stale edit)."""
+
+
+class RaceLost(ConflictError):
+    """Another transaction took the same row first. Running the work again either succeeds or
+    refuses by name once its checks see that row, so `run_in_transaction` retries it."""

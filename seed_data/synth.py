@@ -18,7 +18,9 @@ from typing import Any
 from sqlalchemy import Connection
 
 from plantdb import geo
+from plantdb.audit import ChangeRow, record_changes
 from plantdb.bulk import BulkWriter
+from plantdb.model import ChangeAction
 from seed_data import synth_plan as sp
 from seed_data.synth_plan import Plan
 
@@ -281,7 +283,7 @@ def run_synth(
         [("synth", json.dumps({"fibers": fibers, "seed": seed, "generator": 1}))],
     )
     writer.finish()
-    return {
+    document = {
         "fibers_asked": fibers,
         "seed": seed,
         "strands": writer.counts.get("strand", 0),
@@ -290,6 +292,17 @@ def run_synth(
         "unbuilt_trunks": plan.unbuilt,
         "plan": {"trunk_strands": plan.trunk_strands, "cables_per_trunk": plan.cables_per_trunk},
     }
+    _record_history(connection, document)
+    return document
+
+
+def _record_history(connection: Connection, document: dict[str, Any]) -> None:
+    """One history row for the whole generated plant: a row per thing would be millions of
+    rows describing invented records, and slow the generator down several times over."""
+    after = {k: document[k] for k in ("fibers_asked", "seed", "strands", "trunks")}
+    label = f"synthetic plant of {document['strands']:,} strands generated"
+    row = ChangeRow(ChangeAction.INSERT, "synthetic_plant", None, label, None, after)
+    record_changes(connection, [row])
 
 
 def console_progress() -> Callable[[int, int], None] | None:

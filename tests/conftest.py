@@ -27,7 +27,24 @@ POSTGRES_URL = os.environ.get("PLANTDB_TEST_POSTGRES_URL")
 REQUIRE_POSTGRES = os.environ.get("PLANTDB_REQUIRE_POSTGRES") == "1"
 NO_POSTGRES_REASON = "PostgreSQL tests need PLANTDB_TEST_POSTGRES_URL (CI sets it)"
 
+# Where the web app keeps its generated secret key (webui.ENV_INSTANCE).
+ENV_INSTANCE = "PLANTDB_INSTANCE_PATH"
+
 BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)]
+
+
+@pytest.fixture(scope="session", autouse=True)
+def instance_folder(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Path]:
+    """Web apps made by the tests (and `plantdb serve` processes they start) keep their
+    generated secret key in a temporary instance folder, never in the checkout."""
+    folder = tmp_path_factory.mktemp("instance")
+    before = os.environ.get(ENV_INSTANCE)
+    os.environ[ENV_INSTANCE] = str(folder)
+    yield folder
+    if before is None:
+        os.environ.pop(ENV_INSTANCE, None)
+    else:
+        os.environ[ENV_INSTANCE] = before
 
 
 @pytest.fixture(scope="session")

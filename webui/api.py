@@ -102,7 +102,7 @@ def bundle() -> Any:
 
 
 @blueprint.route("/splices", methods=["POST"])
-@writes
+@writes("clerk")
 def splices() -> Any:
     """Record a JSON list of splice rows (the splice sheet's columns): all of them or none."""
     items = request.get_json(silent=True)

@@ -13,6 +13,7 @@ from flask import Blueprint, Response, redirect, send_from_directory, url_for
 from werkzeug.wrappers import Response as WerkzeugResponse
 
 from plantdb.colours import TIA_598
+from plantdb.records.print_sheet import sheet_css
 
 blueprint = Blueprint("assets", __name__)
 
@@ -48,6 +49,15 @@ def colour_css() -> str:
 def colours() -> Response:
     """The colour classes as a stylesheet."""
     response = Response(colour_css(), mimetype="text/css")
+    response.cache_control.max_age = CACHE_SECONDS
+    response.cache_control.public = True
+    return response
+
+
+@blueprint.route("/assets/print-sheet.css")
+def print_sheet_css() -> Response:
+    """The print-ready splice sheet's stylesheet (linked, so the page needs no inline style)."""
+    response = Response(sheet_css(), mimetype="text/css")
     response.cache_control.max_age = CACHE_SECONDS
     response.cache_control.public = True
     return response

@@ -8,6 +8,7 @@ from sqlalchemy import select
 from plantdb.model import Cable, FiberType
 from plantdb.trace.reader import PlantReader
 from webui.cable_view import strand_lines
+from webui.history import latest_changes
 from webui.store import reading
 
 blueprint = Blueprint("cables", __name__, url_prefix="/cables")
@@ -29,6 +30,7 @@ def cable(label: str) -> str:
         strands = strand_lines(session, row)
         # The reader fills spans and coils on first use: read them while the session is open.
         spans, coils = list(row.spans), list(row.coils)
+        history = latest_changes(session, "cable", label)
     return render_template(
         "cable.html",
         cable=row,
@@ -37,4 +39,5 @@ def cable(label: str) -> str:
         info=info,
         strands=strands,
         geometry_url=url_for("map.lines", cable=label),
+        history=history,
     )

@@ -16,6 +16,7 @@ from plantdb.trace.loss import LossOptions
 from plantdb.trace.service import loss_report, trace_document
 from webui import params
 from webui.access import writes
+from webui.history import latest_changes
 from webui.store import reading, write
 
 blueprint = Blueprint("circuits", __name__, url_prefix="/circuits")
@@ -41,6 +42,7 @@ def _circuit_rows(
             Circuit.customer,
             Circuit.path_state,
             Circuit.path_note,
+            Circuit.version,
             (func.coalesce(a_panel.label, a_gear.label) + ":" + a.name).label("a"),
             (func.coalesce(z_panel.label, z_gear.label) + ":" + z.name).label("z"),
         )
@@ -99,6 +101,7 @@ def circuit(label: str) -> str:
             )
         except PlantError as error:
             loss, loss_error = None, error.message
+        history = latest_changes(session, "circuit", label)
     return render_template(
         "circuit.html",
         circuit=rows[0],
@@ -108,15 +111,18 @@ def circuit(label: str) -> str:
         loss_error=loss_error,
         statuses=STATUSES,
         geometry_url=url_for("map.lines", circuit=label),
+        history=history,
     )
 
 
 @blueprint.route("/<path:label>/status", methods=["POST"])
-@writes
+@writes("dispatcher", "engineer")
 def change_status(label: str) -> Any:
-    """Set the circuit's status from the page's form."""
+    """Set the circuit's status from the page's form, unless someone changed the circuit since
+    the page showed it (the form carries the version it showed: 409 then)."""
     status = params.required_text(request.form, "status")
-    change = write(lambda session: set_circuit_status(session, label, status))
+    shown = params.whole(request.form, "version")
+    change = write(lambda session: set_circuit_status(session, label, status, version=shown))
     if change["changed"]:
         flash(f"{label}: status changed from {change['previous']} to {change['status']}.", "done")
     else:

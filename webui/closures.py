@@ -16,7 +16,9 @@ from plantdb.records.sheet_export import write_csv, write_xlsx
 from plantdb.records.splice_rows import ClosureSheet, closure_sheet, end_markings
 from plantdb.records.splicing import SpliceRefused, SpliceReport
 from plantdb.trace.dispatch import live_document
+from webui import params
 from webui.access import writes
+from webui.history import latest_changes, past_sheet_page
 from webui.splice_forms import SpliceForm, read_form, record_form
 from webui.store import reading, write
 from webui.views import strand_markings
@@ -65,6 +67,7 @@ def _page(label: str, entry: SpliceForm | None = None, problems: list[str] | Non
             .where(Closure.label == label)
             .order_by(Splitter.label)
         ).all()
+        history = latest_changes(session, "closure", label)
     strands = _strand_rows(live, sheet)
     return render_template(
         "closure.html",
@@ -78,12 +81,16 @@ def _page(label: str, entry: SpliceForm | None = None, problems: list[str] | Non
         splitters=splitters,
         entry=entry,
         problems=problems or [],
+        history=history,
     )
 
 
 @blueprint.route("/<path:label>")
 def closure(label: str) -> str:
-    """A closure's page."""
+    """A closure's page; with ?as_of=YYYY-MM-DD its splice sheet as recorded on that day."""
+    as_of = params.text(request.args, "as_of")
+    if as_of is not None:
+        return past_sheet_page(label, as_of)
     return _page(label)
 
 
@@ -92,7 +99,8 @@ def print_sheet(label: str) -> Response:
     """The print-ready splice sheet (the same page `plantdb export splices -o X.html` writes)."""
     with reading() as session:
         sheet = closure_sheet(session, label)
-    return Response(render_sheet_html(sheet), mimetype="text/html")
+    page = render_sheet_html(sheet, stylesheet=url_for("assets.print_sheet_css"))
+    return Response(page, mimetype="text/html")
 
 
 @blueprint.route("/<path:label>/sheet.<any(csv, xlsx):suffix>")
@@ -122,7 +130,7 @@ def _added_message(report: SpliceReport) -> str:
 
 
 @blueprint.route("/<path:label>/splices", methods=["POST"])
-@writes
+@writes("clerk")
 def add_splices(label: str) -> Any:
     """Record the splices of one of the three forms; the page again with every problem."""
     entry = read_form(request.form)

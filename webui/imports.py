@@ -82,7 +82,7 @@ def _check(sheet: Sheet, commit: bool) -> SpliceReport:
 
 
 @blueprint.route("/", methods=["POST"])
-@writes
+@writes("clerk")
 def check_or_commit() -> Any:
     """Check the sheet (a dry run), or commit it when the clerk asks and it is clean."""
     commit = request.form.get("action") == "commit"

@@ -141,15 +141,24 @@ _DOCUMENTS: dict[str, dict[str, Any]] = {
 }
 
 
+# An address is LABEL:POINT (labels hold no colon), e.g. CO1-FDF01:12, CBL-0042:37/A.
+ADDRESS = {"pattern": "^[^:]+:.+$"}
+
+
 def _query(
-    name: str, description: str, *, required: bool = False, kind: str = "string"
+    name: str,
+    description: str,
+    *,
+    required: bool = False,
+    kind: str = "string",
+    limits: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
     return {
         "name": name,
         "in": "query",
         "required": required,
         "description": description,
-        "schema": {"type": kind},
+        "schema": {"type": kind, **(limits or {})},
     }
 
 
@@ -182,7 +191,7 @@ def _get(
 
 _LOSS_PARAMETERS = [
     _query("circuit", "a circuit label (or give port)"),
-    _query("port", "PANEL:PORT: every path from it (or give circuit)"),
+    _query("port", "PANEL:PORT: every path from it (or give circuit)", limits=ADDRESS),
     {
         "name": "wavelength",
         "in": "query",
@@ -227,8 +236,8 @@ def _paths() -> dict[str, Any]:
             "Trace from a port, a strand or a circuit (exactly one)",
             "Trace",
             [
-                _query("port", "PANEL:PORT or EQUIPMENT:PORT"),
-                _query("fiber", "CABLE:STRAND"),
+                _query("port", "PANEL:PORT or EQUIPMENT:PORT", limits=ADDRESS),
+                _query("fiber", "CABLE:STRAND", limits=ADDRESS),
                 _query("circuit", "a circuit label"),
             ],
         ),
@@ -247,9 +256,15 @@ def _paths() -> dict[str, Any]:
             "Where an OTDR distance from a port falls",
             "Locate",
             [
-                _query("port", "PANEL:PORT the OTDR was connected to", required=True),
                 _query(
-                    "distance_m", "distance the OTDR reports, metres", required=True, kind="number"
+                    "port", "PANEL:PORT the OTDR was connected to", required=True, limits=ADDRESS
+                ),
+                _query(
+                    "distance_m",
+                    "distance the OTDR reports, metres",
+                    required=True,
+                    kind="number",
+                    limits={"exclusiveMinimum": 0},
                 ),
                 _query("wavelength", "OTDR wavelength, nm", kind="integer"),
                 _query("otdr_index", "group index the OTDR was set to", kind="number"),

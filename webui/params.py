@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 
+from flask import request
 from werkzeug.datastructures import MultiDict
 from werkzeug.exceptions import BadRequest
 
@@ -96,3 +97,18 @@ def bbox(value: str | None) -> tuple[float, float, float, float]:
     if south > north:
         raise BadRequest(f"parameter bbox: south {south:g} is north of north {north:g}")
     return west, south, east, north
+
+
+def refuse_nul_characters() -> None:
+    """Refuse (400) a request whose path, parameters or form fields hold a NUL character.
+
+    No label holds one, and PostgreSQL cannot store or even compare text with one: a lookup
+    would fail in the database instead of answering "no such thing".
+    """
+    places = [("parameter", request.args), ("field", request.form)]
+    places.append(("path part", MultiDict((request.view_args or {}).items())))
+    for what, values in places:
+        for name, value in values.items(multi=True):
+            if "\x00" in str(name) or (isinstance(value, str) and "\x00" in value):
+                shown = str(name).replace("\x00", "\\0")
+                raise BadRequest(f"{what} {shown}: a NUL character is not allowed")

@@ -45,9 +45,12 @@ def metres(value: float | None) -> str:
     return "" if value is None else f"{value:,.1f} m"
 
 
-def decibels(value: float | None) -> str:
-    """Losses shown to 0.01 dB (the JSON keeps them exact)."""
-    return "" if value is None else f"{value:.2f}"
+def decibels(value: object) -> str:
+    """Losses shown to 0.01 dB (the JSON keeps them exact); blank where none is recorded
+    (documents leave out a loss nobody measured, so templates may see it undefined)."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return ""
+    return f"{value:.2f}"
 
 
 def words(value: object) -> str:

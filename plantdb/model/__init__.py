@@ -27,13 +27,18 @@ from plantdb.model.closures import (
     Tray,
 )
 from plantdb.model.geography import Route, RouteSpan, Span, SpanKind, Structure, StructureKind
+from plantdb.model.history import Change, ChangeAction
 from plantdb.model.measurements import LossTest, Setting
+from plantdb.model.people import ApiToken, Person, Role, SignInAttempt, WebSession
 from plantdb.model.terminals import Equipment, EquipmentRole, Jumper, Panel, Port
 
 __all__ = [
+    "ApiToken",
     "Base",
     "Cable",
     "CableSpan",
+    "Change",
+    "ChangeAction",
     "Circuit",
     "CircuitPathItem",
     "CircuitStatus",
@@ -49,11 +54,14 @@ __all__ = [
     "Jumper",
     "LossTest",
     "Panel",
+    "Person",
     "Port",
+    "Role",
     "Route",
     "RouteSpan",
     "Setting",
     "Side",
+    "SignInAttempt",
     "SlackCoil",
     "Span",
     "SpanKind",
@@ -68,4 +76,5 @@ __all__ = [
     "TerminationMethod",
     "Tray",
     "Unit",
+    "WebSession",
 ]

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import enum
 
-from sqlalchemy import CheckConstraint, ForeignKey, Index, Integer, String, Text
+from sqlalchemy import CheckConstraint, ForeignKey, Index, Integer, String, Text, text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from plantdb.model.base import LABEL_LENGTH, Base
@@ -39,6 +39,9 @@ class Circuit(Base):
     a_address: Mapped[str | None] = mapped_column(String(100))
     z_address: Mapped[str | None] = mapped_column(String(100))
     path_note: Mapped[str | None] = mapped_column(Text)
+    # Bumped by every change a person makes to the circuit (its status): an edit made on a
+    # page showing an older version is refused, not applied over someone else's change.
+    version: Mapped[int] = mapped_column(Integer, server_default=text("1"))
 
 
 class CircuitPathItem(Base):

@@ -15,6 +15,7 @@ from sqlalchemy import (
     String,
     Text,
     UniqueConstraint,
+    text,
 )
 from sqlalchemy.orm import Mapped, mapped_column
 
@@ -87,6 +88,10 @@ class Splice(Base):
         UniqueConstraint("tray_id", "slot"),
         CheckConstraint("slot >= 1 AND slot <= tray_capacity", name="slot_in_tray"),
         CheckConstraint("loss_db IS NULL OR loss_db >= 0", name="loss_nonnegative"),
+        # Ids are never reused (SQLite would otherwise reuse the highest after a removal), so
+        # an id and a version name one state of one splice, and the history's rows of one
+        # splice id are that splice's alone.
+        {"sqlite_autoincrement": True},
     )
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
@@ -98,6 +103,9 @@ class Splice(Base):
     loss_db: Mapped[float | None] = mapped_column(Float)
     spliced_on: Mapped[dt.date | None] = mapped_column(Date)
     spliced_by: Mapped[str | None] = mapped_column(String(100))
+    # Bumped by every change of the splice: an edit made on a page showing an older version
+    # is refused (someone else changed it since), not applied over their change.
+    version: Mapped[int] = mapped_column(Integer, server_default=text("1"))
 
 
 class Cut(Base):

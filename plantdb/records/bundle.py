@@ -9,6 +9,7 @@ from typing import Any
 
 from sqlalchemy.orm import Session
 
+from plantdb.audit import record_changes
 from plantdb.errors import PlantError
 from plantdb.records import bundle_cables, bundle_connections, bundle_load
 from plantdb.records.bundle_dump import dump_bundle
@@ -55,6 +56,7 @@ def load_bundle(session: Session, data: Any) -> dict[str, int]:
         loader(ctx, data)
     if ctx.problems:
         raise BundleError(ctx.report())
+    record_changes(session, ctx.changes)
     session.flush()
     # New connections can complete, re-route or break any circuit: re-trace them all.
     refresh_circuits(session)

@@ -8,6 +8,7 @@ from typing import Any
 from plantdb.errors import PlantError
 from plantdb.model import Cable, CableSpan, ConstructionKind, SlackCoil, Station, Strand, Unit
 from plantdb.records.bundle_load import LoadContext, items, named
+from plantdb.records.changes import thing_added
 from plantdb.records.lookup import CableInfo, PlaceInfo, StationInfo
 from plantdb.records.placement import (
     Path,
@@ -200,6 +201,7 @@ def _insert_cable(
         for sid, row, place in zip(station_ids, station_rows, places, strict=True)
     ]
     ctx.lookup.remember_cable(info)
+    ctx.changes.append(thing_added("cable", cable_id, label, item))
     ctx.count("cables", 1)
 
 

@@ -22,6 +22,7 @@ from plantdb.model import (
     TerminationMethod,
 )
 from plantdb.records.bundle_load import LoadContext, items
+from plantdb.records.changes import added, cut_added, splice_added, thing_added
 from plantdb.records.ends import (
     EndRef,
     PortRef,
@@ -45,33 +46,48 @@ def end_row(end: EndRef) -> dict[str, Any]:
     }
 
 
-def cut_rows_for(ctx: LoadContext, ends: list[EndRef]) -> list[dict[str, Any]]:
-    """Cut rows that connecting these mid-span ends implies, for strands not yet cut."""
-    rows = []
+def new_cut_ends(ctx: LoadContext, ends: list[EndRef]) -> list[EndRef]:
+    """The mid-span ends among these whose strands are not cut yet (now counted as cut)."""
+    new = []
     for end in ends:
         if not end.mid_span:
             continue
         assert end.cable_id and end.strand_id and end.station_id
         if not ctx.lookup.is_cut(end.cable_id, end.strand_id, end.station_id):
             ctx.lookup.remember_cut(end.cable_id, end.strand_id, end.station_id)
-            rows.append({"strand_id": end.strand_id, "station_id": end.station_id})
-    return rows
+            new.append(end)
+    return new
+
+
+def cut_row(end: EndRef) -> dict[str, Any]:
+    """The cut row of a mid-span end's strand."""
+    return {"strand_id": end.strand_id, "station_id": end.station_id}
+
+
+def _write_cuts(ctx: LoadContext, cuts: list[tuple[int, str, EndRef]]) -> None:
+    """Write cuts (closure id, closure label, end) with their history rows."""
+    ids = ctx.insert_ids(Cut, [cut_row(end) for _id, _label, end in cuts])
+    ctx.changes.extend(
+        cut_added(closure_id, label, end, cut_id)
+        for (closure_id, label, end), cut_id in zip(cuts, ids, strict=True)
+    )
+    ctx.count("cuts", len(ids))
 
 
 def load_cuts(ctx: LoadContext, data: dict[str, Any]) -> None:
-    ends = []
+    cuts = []
     for path, item in items(data, "cuts"):
         closure = ctx.lookup.closure(item["closure"])
         if closure is None:
             ctx.problem(path, f"closure: no closure is labelled {item['closure']}")
             continue
         try:
-            ends.append(resolve_cut(ctx.lookup, item["fiber"], closure))
+            end = resolve_cut(ctx.lookup, item["fiber"], closure)
         except PlantError as exc:
             ctx.problem(path, exc.message)
-    rows = cut_rows_for(ctx, ends)
-    ctx.insert(Cut, rows)
-    ctx.count("cuts", len(rows))
+            continue
+        cuts += [(closure.id, closure.label, new) for new in new_cut_ends(ctx, [end])]
+    _write_cuts(ctx, cuts)
 
 
 def _splice_ends(ctx: LoadContext, item: dict[str, Any]) -> tuple[EndRef, EndRef, int, int]:
@@ -113,6 +129,7 @@ def _splice_ends(ctx: LoadContext, item: dict[str, Any]) -> tuple[EndRef, EndRef
 def load_splices(ctx: LoadContext, data: dict[str, Any]) -> None:
     splices: list[dict[str, Any]] = []
     pairs: list[tuple[EndRef, EndRef]] = []
+    written: list[dict[str, Any]] = []
     for path, item in items(data, "splices"):
         try:
             a, b, closure_id, tray_id = _splice_ends(ctx, item)
@@ -136,12 +153,32 @@ def load_splices(ctx: LoadContext, data: dict[str, Any]) -> None:
             }
         )
         pairs.append((a, b))
-    if ctx.problems:
-        return
-    implied = cut_rows_for(ctx, [end for pair in pairs for end in pair])
-    ctx.insert(Cut, implied)
-    ctx.count("cuts", len(implied))
+        written.append(item)
+    if not ctx.problems:
+        _write_splices(ctx, splices, pairs, written)
+
+
+def _write_splices(
+    ctx: LoadContext,
+    splices: list[dict[str, Any]],
+    pairs: list[tuple[EndRef, EndRef]],
+    written: list[dict[str, Any]],
+) -> None:
+    """Write checked splices (rows, their ends, their bundle items), the cuts they imply,
+    and the history rows of both."""
+    _write_cuts(
+        ctx,
+        [
+            (row["closure_id"], item["closure"], end)
+            for row, item, pair in zip(splices, written, pairs, strict=True)
+            for end in new_cut_ends(ctx, list(pair))
+        ],
+    )
     splice_ids = ctx.insert_ids(Splice, splices)
+    ctx.changes.extend(
+        splice_added(splice_id, row["closure_id"], a, b, item)
+        for splice_id, row, (a, b), item in zip(splice_ids, splices, pairs, written, strict=True)
+    )
     ctx.insert(
         FiberEnd,
         [
@@ -155,6 +192,7 @@ def load_splices(ctx: LoadContext, data: dict[str, Any]) -> None:
 
 def load_terminations(ctx: LoadContext, data: dict[str, Any]) -> None:
     rows = []
+    changes = []
     for path, item in items(data, "terminations"):
         try:
             port = resolve_port(ctx.lookup, item["port"])
@@ -174,14 +212,21 @@ def load_terminations(ctx: LoadContext, data: dict[str, Any]) -> None:
         ctx.lookup.occupy(end.key, f"terminated on {port.address}")
         method = TerminationMethod(item.get("method") or "pigtail_splice")
         rows.append({**end_row(end), "port_id": port.id, "termination_method": method})
-    if not ctx.problems:
-        ctx.insert(FiberEnd, rows)
+        changes.append((f"{end.address} on {port.address}", item, end.cable_id))
+    if ctx.problems:
+        return
+    ids = ctx.insert_ids(FiberEnd, rows)
+    ctx.changes.extend(
+        added("termination", end_id, label, item, cable_id=cable_id)
+        for end_id, (label, item, cable_id) in zip(ids, changes, strict=True)
+    )
     ctx.count("terminations", len(rows))
 
 
 def load_jumpers(ctx: LoadContext, data: dict[str, Any]) -> None:
     pairs: list[tuple[PortRef, PortRef]] = []
     lengths = []
+    written = []
     for path, item in items(data, "jumpers"):
         try:
             a, b = resolve_port(ctx.lookup, item["a"]), resolve_port(ctx.lookup, item["b"])
@@ -198,9 +243,14 @@ def load_jumpers(ctx: LoadContext, data: dict[str, Any]) -> None:
         ctx.lookup.occupy(("front", b.id), f"patched to {a.address}")
         pairs.append((a, b))
         lengths.append({"length_m": item.get("length_m")})
+        written.append(item)
     if ctx.problems:
         return
     jumper_ids = ctx.insert_ids(Jumper, lengths)
+    ctx.changes.extend(
+        added("jumper", jumper_id, f"jumper {a.address} to {b.address}", item)
+        for jumper_id, (a, b), item in zip(jumper_ids, pairs, written, strict=True)
+    )
     if jumper_ids:
         ctx.session.execute(
             update(Port),
@@ -215,6 +265,7 @@ def load_jumpers(ctx: LoadContext, data: dict[str, Any]) -> None:
 
 def load_circuits(ctx: LoadContext, data: dict[str, Any]) -> None:
     rows = []
+    written = []
     for path, item in items(data, "circuits"):
         label = item["label"]
         exists = ctx.session.scalar(select(Circuit.id).where(Circuit.label == label))
@@ -240,13 +291,20 @@ def load_circuits(ctx: LoadContext, data: dict[str, Any]) -> None:
                 "notes": item.get("notes"),
             }
         )
-    if not ctx.problems:
-        ctx.insert(Circuit, rows)
+        written.append(item)
+    if ctx.problems:
+        return
+    ids = ctx.insert_ids(Circuit, rows)
+    ctx.changes.extend(
+        thing_added("circuit", circuit_id, item["label"], item)
+        for circuit_id, item in zip(ids, written, strict=True)
+    )
     ctx.count("circuits", len(rows))
 
 
 def load_loss_tests(ctx: LoadContext, data: dict[str, Any]) -> None:
     rows = []
+    written = []
     for path, item in items(data, "loss_tests"):
         circuit_id = ctx.session.scalar(select(Circuit.id).where(Circuit.label == item["circuit"]))
         if circuit_id is None and item["circuit"] in ctx.seen.get("circuit", set()):
@@ -266,6 +324,18 @@ def load_loss_tests(ctx: LoadContext, data: dict[str, Any]) -> None:
                 "notes": item.get("notes"),
             }
         )
-    if not ctx.problems:
-        ctx.insert(LossTest, rows)
+        written.append(item)
+    if ctx.problems:
+        return
+    ids = ctx.insert_ids(LossTest, rows)
+    ctx.changes.extend(
+        added(
+            "loss_test",
+            test_id,
+            f"loss test of {item['circuit']} at {item['wavelength_nm']} nm",
+            item,
+            circuit_id=row["circuit_id"],
+        )
+        for test_id, row, item in zip(ids, rows, written, strict=True)
+    )
     ctx.count("loss_tests", len(rows))

@@ -17,6 +17,7 @@ from sqlalchemy import insert
 from sqlalchemy.orm import Session
 
 from plantdb import geo
+from plantdb.audit import ChangeRow
 from plantdb.errors import PlantError
 from plantdb.model import (
     Closure,
@@ -37,6 +38,7 @@ from plantdb.model import (
     StructureKind,
     Tray,
 )
+from plantdb.records.changes import added, thing_added
 from plantdb.records.lookup import PlaceInfo, RecordLookup, SplitterInfo, StructureRef
 from plantdb.records.placement import chain_spans
 
@@ -78,6 +80,8 @@ class LoadContext:
     # holds, it is listed once on a follow-on line.
     refused: dict[str, str] = field(default_factory=dict)
     follow_ons: dict[str, list[str]] = field(default_factory=dict)
+    # One history row per thing written, the thing as its bundle item (`plantdb.audit`).
+    changes: list[ChangeRow] = field(default_factory=list)
 
     def problem(self, path: str, message: str) -> None:
         item = _NAMED_PATH.match(path)
@@ -182,11 +186,12 @@ def load_fiber_types(ctx: LoadContext, data: dict[str, Any]) -> None:
             ],
         )
         ctx.lookup.remember_fiber_type(name, fiber_type_id, item["mode"])
+        ctx.changes.append(thing_added("fiber_type", fiber_type_id, name, item))
         ctx.count("fiber_types", 1)
 
 
 def load_structures(ctx: LoadContext, data: dict[str, Any]) -> None:
-    rows = []
+    rows, written = [], []
     for path, item in items(data, "structures"):
         label = item["label"]
         if not ctx.claim("structure", label, path, ctx.lookup.structure(label) is not None):
@@ -198,8 +203,11 @@ def load_structures(ctx: LoadContext, data: dict[str, Any]) -> None:
         row.update(kind=StructureKind(item["kind"]), lon=float(item["lon"]))
         row["lat"] = float(item["lat"])
         rows.append(row)
-    for row, new_id in zip(rows, ctx.insert_ids(Structure, rows), strict=True):
+        written.append(item)
+    ids = ctx.insert_ids(Structure, rows)
+    for row, item, new_id in zip(rows, written, ids, strict=True):
         ctx.lookup.remember_structure(row["label"], StructureRef(new_id, row["lon"], row["lat"]))
+        ctx.changes.append(thing_added("structure", new_id, row["label"], item))
     ctx.count("structures", len(rows))
 
 
@@ -249,17 +257,20 @@ def _span_row(ctx: LoadContext, path: str, item: dict[str, Any]) -> dict[str, An
 
 
 def load_spans(ctx: LoadContext, data: dict[str, Any]) -> None:
-    rows = []
+    rows, written = [], []
     for path, item in items(data, "spans"):
         if not ctx.claim("span", item["label"], path, ctx.lookup.span(item["label"]) is not None):
             continue
         row = _span_row(ctx, path, item)
         if row is not None:
             rows.append(row)
-    for row, new_id in zip(rows, ctx.insert_ids(Span, rows), strict=True):
+            written.append(item)
+    ids = ctx.insert_ids(Span, rows)
+    for row, item, new_id in zip(rows, written, ids, strict=True):
         ctx.lookup.remember_span(
             row["label"], new_id, row["from_structure_id"], row["to_structure_id"]
         )
+        ctx.changes.append(thing_added("span", new_id, row["label"], item))
     ctx.count("spans", len(rows))
 
 
@@ -291,6 +302,7 @@ def load_routes(ctx: LoadContext, data: dict[str, Any]) -> None:
                 for seq, name in enumerate(item["spans"])
             ],
         )
+        ctx.changes.append(thing_added("route", route_id, label, item))
         ctx.count("routes", 1)
 
 
@@ -334,6 +346,7 @@ def load_closures(ctx: LoadContext, data: dict[str, Any]) -> None:
             ],
         )
         ctx.lookup.remember_closure(PlaceInfo(closure_id, label, structure.id))
+        ctx.changes.append(thing_added("closure", closure_id, label, item))
         ctx.count("closures", 1)
 
 
@@ -362,6 +375,7 @@ def load_panels(ctx: LoadContext, data: dict[str, Any]) -> None:
             ],
         )
         ctx.lookup.remember_panel(PlaceInfo(panel_id, label, structure.id, item["ports"]))
+        ctx.changes.append(thing_added("panel", panel_id, label, item))
         ctx.count("panels", 1)
 
 
@@ -391,6 +405,7 @@ def load_equipment(ctx: LoadContext, data: dict[str, Any]) -> None:
         (equipment_id,) = ctx.insert_ids(Equipment, [row])
         ctx.insert(Port, [{"equipment_id": equipment_id, "name": name} for name in names])
         ctx.lookup.remember_equipment(PlaceInfo(equipment_id, label, structure.id))
+        ctx.changes.append(thing_added("equipment", equipment_id, label, item))
         ctx.count("equipment", 1)
 
 
@@ -445,4 +460,6 @@ def load_splitters(ctx: LoadContext, data: dict[str, Any]) -> None:
                 place.structure_id,
             )
         )
+        where = {"closure_id": closure.id} if closure else {}
+        ctx.changes.append(added("splitter", splitter_id, f"splitter {label}", item, **where))
         ctx.count("splitters", 1)

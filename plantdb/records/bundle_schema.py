@@ -32,6 +32,9 @@ def _text(value: Any, path: str) -> list[str]:
         return [f"{path}: expected non-empty text, got {value!r}"]
     if len(value) > 200:
         return [f"{path}: text longer than 200 characters"]
+    if "\x00" in value:
+        # No label holds one, and PostgreSQL cannot store or even compare text with one.
+        return [f"{path}: text holds a NUL character"]
     return []
 
 

@@ -36,7 +36,11 @@ th { background: #eee; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
 td.label, td.day { white-space: nowrap; }
 .swatch { display: inline-block; width: 1.1em; height: 1.1em; border: 2px solid;
-  border-radius: 2px; vertical-align: middle; margin-right: .15em; }
+  border-radius: 2px; vertical-align: middle; margin-right: .15em;
+  background: var(--swatch); border-color: var(--swatch-edge); }
+/* Stripes drawn as bands of the stripe colour across the base colour. */
+.swatch.striped {
+  background: repeating-linear-gradient(135deg, var(--swatch) 0 4px, var(--stripe) 4px 6px); }
 .colours { white-space: nowrap; }
 .empty { color: #555; font-style: italic; }
 .safety { margin-top: 1.5em; border-top: 1px solid #999; padding-top: .5em; font-size: .9em; }
@@ -59,16 +63,27 @@ _SAFETY = (
 )
 
 
+def swatch_classes(mark: Marking) -> str:
+    """CSS classes of a swatch: `tia-N` for the base colour, `striped stripe-NAME` if striped
+    (the rules are in `sheet_css`, so the page needs no inline style)."""
+    classes = f"swatch tia-{TIA_598.index(mark.base) + 1}"
+    if mark.stripe is not None:
+        classes += f" striped stripe-{mark.stripe.name}"
+    return classes
+
+
 def _swatch(mark: Marking) -> str:
-    if mark.stripe_hex:
-        # Stripes drawn as bands of the stripe colour across the base colour.
-        background = (
-            f"repeating-linear-gradient(135deg, {mark.hex} 0 4px, {mark.stripe_hex} 4px 6px)"
-        )
-    else:
-        background = mark.hex
-    border = mark.base.border
-    return f'<span class="swatch" style="background:{background};border-color:{border}"></span>'
+    return f'<span class="{swatch_classes(mark)}"></span>'
+
+
+def sheet_css() -> str:
+    """The sheet's stylesheet: layout and print rules, then one class per TIA-598 colour."""
+    lines = [_STYLE]
+    for n, colour in enumerate(TIA_598, start=1):
+        lines.append(f".tia-{n} {{ --swatch: {colour.hex}; --swatch-edge: {colour.border}; }}")
+    for colour in TIA_598:
+        lines.append(f".stripe-{colour.name} {{ --stripe: {colour.hex}; }}")
+    return "\n".join(lines) + "\n"
 
 
 def _colours_cell(end: RecordedEnd) -> str:
@@ -167,8 +182,15 @@ def _legend() -> str:
     )
 
 
-def render_sheet_html(sheet: ClosureSheet, *, printed: dt.date | None = None) -> str:
-    """The print-ready page of a closure sheet read by `closure_sheet`."""
+def render_sheet_html(
+    sheet: ClosureSheet, *, printed: dt.date | None = None, stylesheet: str | None = None
+) -> str:
+    """The print-ready page of a closure sheet read by `closure_sheet`.
+
+    With `stylesheet` (a URL), the page links to `sheet_css` served there, as a web server
+    whose content security policy refuses inline styles needs; without, the rules are inline,
+    so a written file stands alone.
+    """
     by_tray: dict[int, list[RecordedSplice]] = {}
     for splice in sheet.splices:
         by_tray.setdefault(splice.tray, []).append(splice)
@@ -179,9 +201,13 @@ def render_sheet_html(sheet: ClosureSheet, *, printed: dt.date | None = None) ->
         f"Closure {escape(sheet.closure)} at {escape(sheet.structure)}."
         f" {len(sheet.splices)} splices in {len(sheet.trays)} trays. Printed {day}."
     )
+    if stylesheet is None:
+        style = f"<style>{sheet_css()}</style>"
+    else:
+        style = f'<link rel="stylesheet" href="{escape(stylesheet)}">'
     return (
         f'<!doctype html>\n<html lang="en"><head><meta charset="utf-8">'
-        f"<title>{title}</title><style>{_STYLE}</style></head><body>"
+        f"<title>{title}</title>{style}</head><body>"
         f'<header><h1>{title}</h1><p class="meta">{meta}</p></header>'
         f"{_cables(sheet)}{trays}{_legend()}"
         f'<p class="safety">{escape(_SAFETY)}</p></body></html>\n'

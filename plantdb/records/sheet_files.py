@@ -14,6 +14,7 @@ which is taken off again here so an exported sheet imports back to the same reco
 
 from __future__ import annotations
 
+import codecs
 import csv
 import datetime as dt
 import io
@@ -112,6 +113,16 @@ def _header(cells: list[str], sheet: Sheet) -> list[str | None] | None:
     return [n or None for n in names]
 
 
+def _cell_problem(name: str, text: str) -> str | None:
+    """What is wrong with a cell's text whatever its column, or None."""
+    if len(text) > MAX_CELL_CHARS:
+        return f"{name} is {len(text)} characters long (limit {MAX_CELL_CHARS})"
+    if "\x00" in text:
+        # JSON rows can carry one ("\u0000"); PostgreSQL cannot even compare text with it.
+        return f"{name} holds a NUL character"
+    return None
+
+
 def _row(line: int, cells: list[str], header: list[str | None], sheet: Sheet) -> None:
     values: dict[str, str] = {}
     for i, raw in enumerate(cells):
@@ -122,10 +133,9 @@ def _row(line: int, cells: list[str], header: list[str | None], sheet: Sheet) ->
         if name is None:
             sheet.problems.append(f"line {line}: a value ({text[:20]!r}) under no column")
             continue
-        if len(text) > MAX_CELL_CHARS:
-            sheet.problems.append(
-                f"line {line}: {name} is {len(text)} characters long (limit {MAX_CELL_CHARS})"
-            )
+        problem = _cell_problem(name, text)
+        if problem:
+            sheet.problems.append(f"line {line}: {problem}")
             continue
         values[name] = unquote(text)
     if values:
@@ -153,7 +163,32 @@ def _fill(sheet: Sheet, records: Iterable[tuple[int, list[str]]]) -> Sheet:
 # -- CSV ---------------------------------------------------------------------------------
 
 
+# Byte order marks of the wide encodings a spreadsheet's "Unicode text" export writes (UTF-32
+# first: its little-endian mark begins with UTF-16's).
+_WIDE_MARKS = (
+    (codecs.BOM_UTF32_LE, "utf-32"),
+    (codecs.BOM_UTF32_BE, "utf-32"),
+    (codecs.BOM_UTF16_LE, "utf-16"),
+    (codecs.BOM_UTF16_BE, "utf-16"),
+)
+
+
+def _refuse_wide_text(data: bytes, name: str) -> None:
+    """Name the encoding of UTF-16 or UTF-32 text (its NUL bytes would say only "binary")."""
+    for mark, encoding in _WIDE_MARKS:
+        if data.startswith(mark):
+            try:
+                data.decode(encoding)
+            except UnicodeDecodeError:
+                return  # a mark, then junk: not text at all
+            raise PlantError(
+                f"{name}: line 1: the text is {encoding.upper()} (a spreadsheet's"
+                ' "Unicode text"); save the sheet as "CSV UTF-8"'
+            )
+
+
 def _decode(data: bytes, name: str) -> str:
+    _refuse_wide_text(data, name)
     if b"\x00" in data:
         line = data[: data.index(b"\x00")].count(b"\n") + 1
         raise PlantError(f"{name}: line {line}: a NUL byte; this is not a text (CSV) file")
@@ -241,6 +276,11 @@ def _cell_text(value: Any) -> str:
 def _xlsx_records(rows: Iterable[tuple[Any, ...]], sheet: Sheet) -> Iterator[tuple[int, list[str]]]:
     strand_positions: set[int] = set()
     for line, values in enumerate(rows, start=1):
+        if values.count(None) == len(values):
+            # The reader pads every gap with empty rows: a few hundred bytes naming a cell on
+            # row 1,048,576 would otherwise cost seconds of converting nothing per upload.
+            yield line, []
+            continue
         cells = [_cell_text(v) for v in values]
         if line == 1:
             names = [c.strip().lower() for c in cells]
@@ -335,5 +375,9 @@ def sheet_from_items(items: object, name: str = "rows") -> Sheet:
             sheet.problems.append(f"{where}: unknown keys {', '.join(unknown)}")
             continue
         cells = {k: _cell_text(v).strip() for k, v in item.items() if v is not None}
+        problems = [p for k, v in cells.items() if (p := _cell_problem(k, v))]
+        if problems:
+            sheet.problems.extend(f"{where}: {p}" for p in problems)
+            continue
         sheet.rows.append(SheetRow(i + 1, {k: v for k, v in cells.items() if v}, where))
     return sheet

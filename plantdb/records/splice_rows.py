@@ -67,6 +67,7 @@ class RecordedSplice:
     spliced_by: str | None
     a: RecordedEnd
     b: RecordedEnd
+    version: int = 1  # bumped by every change (the optimistic check of an edit)
 
     def joins(self, first: tuple[object, ...], second: tuple[object, ...]) -> bool:
         """True when this splice joins exactly these two ends, in either order."""
@@ -75,6 +76,23 @@ class RecordedSplice:
     @property
     def description(self) -> str:
         return f"{self.a.address} to {self.b.address}"
+
+    def item(
+        self, closure: str, tray: int | None = None, slot: int | None = None
+    ) -> dict[str, Any]:
+        """The splice as a bundle item; at another tray and slot when given (after a move)."""
+        on = self.spliced_on
+        return {
+            "closure": closure,
+            "a": self.a.address,
+            "b": self.b.address,
+            "tray": self.tray if tray is None else tray,
+            "slot": self.slot if slot is None else slot,
+            "method": self.method,
+            "loss_db": self.loss_db,
+            "spliced_on": on.isoformat() if on else None,
+            "spliced_by": self.spliced_by,
+        }
 
 
 def _strand_end(row: Any, cable: CableInfo, mid_span: bool) -> RecordedEnd:
@@ -113,6 +131,7 @@ def recorded_splices(lookup: RecordLookup, closure_id: int) -> list[RecordedSpli
             Splice.loss_db,
             Splice.spliced_on,
             Splice.spliced_by,
+            Splice.version,
             FiberEnd.splice_side,
             FiberEnd.strand_id,
             FiberEnd.station_id,
@@ -160,6 +179,7 @@ def recorded_splices(lookup: RecordLookup, closure_id: int) -> list[RecordedSpli
             spliced_by=head.spliced_by,
             a=ends[splice_id][1],
             b=ends[splice_id][2],
+            version=head.version,
         )
         for splice_id, head in heads.items()
     ]

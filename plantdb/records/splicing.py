@@ -19,10 +19,13 @@ from typing import Any, TypeVar
 from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
+from plantdb.audit import record_changes
+from plantdb.db import racing_for
 from plantdb.errors import PlantError
 from plantdb.model import ConstructionKind, Cut, FiberEnd, FiberType, Splice, SpliceMethod
-from plantdb.records.bundle_connections import ABSURD_SPLICE_LOSS_DB, cut_rows_for, end_row
+from plantdb.records.bundle_connections import ABSURD_SPLICE_LOSS_DB, cut_row, end_row, new_cut_ends
 from plantdb.records.bundle_load import LoadContext
+from plantdb.records.changes import cuts_added, splice_added
 from plantdb.records.ends import EndRef, resolve_splice_end, sibling_end
 from plantdb.records.lookup import CableInfo, PlaceInfo, RecordLookup
 from plantdb.records.splice_requests import (
@@ -51,6 +54,8 @@ __all__ = [
     "record_splices",
 ]
 
+# What a clerk is told when every attempt met another clerk's splice or cut (see `racing_for`).
+RACED = "another clerk recorded a splice or cut on these fiber ends or tray slots"
 # Progress is reported every this many requests (a sheet of 100,000 rows moves a bar 100 times).
 PROGRESS_STEP = 1000
 _T = TypeVar("_T")
@@ -355,13 +360,13 @@ class _Planner:
 
     def write(self, *, dry_run: bool) -> None:
         ctx = LoadContext(self.session, self.lookup)
-        cut_rows = cut_rows_for(ctx, [end for p in self.planned for end in (p.a, p.b)])
-        self.report.cuts = len(cut_rows)
+        cuts = [(p.closure, end) for p in self.planned for end in new_cut_ends(ctx, [p.a, p.b])]
+        self.report.cuts = len(cuts)
         self.report.splices = [p.describe() for p in self.planned]
         if dry_run or not self.planned:
             return
-        with _sqlite_cache(self.session, len(self.planned)):
-            self._insert(Cut, cut_rows)
+        with _sqlite_cache(self.session, len(self.planned)), racing_for(RACED):
+            self._insert(Cut, [cut_row(end) for _closure, end in cuts])
             self._insert(Splice, [p.row() for p in self.planned])
             splice_ids = self._new_splice_ids()
             self._insert(
@@ -372,6 +377,10 @@ class _Planner:
                     for side, end in ((1, planned.a), (2, planned.b))
                 ],
             )
+            history = cuts_added(self.session, [(c.id, c.label, end) for c, end in cuts])
+            described = zip(splice_ids, self.planned, self.report.splices, strict=True)
+            history += [splice_added(i, p.closure.id, p.a, p.b, item) for i, p, item in described]
+            record_changes(self.session, history)
         self.report.added = len(splice_ids)
         ends = [end for p in self.planned for end in (p.a, p.b)]
         # New splices (and the cuts they make) can complete, re-route or break a circuit.

@@ -115,7 +115,9 @@ def test_print_sheet_shows_trays_colours_sides_and_losses(yard: Database) -> Non
     assert "Tray 1 <small>(6 of 24 slots used)</small>" in page
     assert "Tray 2 <small>(13 of 24 slots used)</small>" in page
     # Colours as swatches and as names: C-A:13 is orange tube, blue fiber (TIA-598).
-    assert f"background:{TIA_598[1].hex}" in page
+    assert '<span class="swatch tia-2"></span>orange' in page
+    assert f".tia-2 {{ --swatch: {TIA_598[1].hex};" in page  # a file that stands alone
+    assert "style=" not in page  # classes only: the served sheet passes a strict CSP
     assert "orange / " in page and "(OR/BL)" in page
     assert "A <small>toward LK-P1</small>" in page
     assert "<td class=num>0.30</td>" in page and "<td class=num>0.03</td>" in page

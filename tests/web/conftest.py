@@ -4,6 +4,7 @@ and on small hand-built networks (tests that write get a fresh database each).""
 from __future__ import annotations
 
 import os
+import re
 import shutil
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -16,6 +17,7 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from plantdb.db import Database, run_in_transaction, upgrade_schema
+from plantdb.people import add_person, add_token
 from plantdb.records.bundle import load_bundle
 from seed_data.demo_town import build_demo_bundle
 from tests.conftest import BACKENDS, NO_POSTGRES_REASON, POSTGRES_URL, REQUIRE_POSTGRES
@@ -80,10 +82,57 @@ def demo_url(request: pytest.FixtureRequest) -> str:
     return url
 
 
+_CSRF_META = re.compile(r'<meta name="csrf-token" content="([^"]+)">')
+
+
+class CsrfClient(FlaskClient):
+    """A test client that sends a form's CSRF token as a browser does: read from a page of the
+    app (its `csrf-token` meta tag) just before the POST. `csrf=False` on a POST sends none."""
+
+    def open(self, *args: Any, **kwargs: Any) -> Any:
+        send_token = kwargs.pop("csrf", True)
+        if kwargs.get("method") == "POST" and send_token and not _has_bearer(kwargs):
+            where = {k: kwargs[k] for k in ("base_url", "environ_base") if k in kwargs}
+            if "json" in kwargs:
+                headers = dict(kwargs.get("headers") or {})
+                headers["X-CSRFToken"] = self.csrf_token(**where)
+                kwargs["headers"] = headers
+            else:
+                data = kwargs.get("data")
+                data = {} if data is None else data
+                if isinstance(data, dict) and "csrf_token" not in data:
+                    kwargs["data"] = {**data, "csrf_token": self.csrf_token(**where)}
+        return super().open(*args, **kwargs)
+
+    def csrf_token(self, **where: Any) -> str:
+        """The CSRF token of this client's session, as the sign-in page carries it."""
+        page = super().open("/sign-in", method="GET", **where).get_data(as_text=True)
+        found = _CSRF_META.search(page)
+        assert found, "the page carries no csrf-token meta tag"
+        return found.group(1)
+
+
+def _has_bearer(kwargs: dict[str, Any]) -> bool:
+    headers = dict(kwargs.get("headers") or {})
+    return str(headers.get("Authorization", "")).lower().startswith("bearer ")
+
+
+def app_config(url: str, **config: Any) -> dict[str, Any]:
+    """The config of an app under test on the database at `url`."""
+    return {"DATABASE_URL": url, "TESTING": True, **config}
+
+
+def new_app(url: str, **config: Any) -> Flask:
+    """An app under test whose client sends CSRF tokens as a browser would."""
+    app = create_app(app_config(url, **config))
+    app.test_client_class = CsrfClient
+    return app
+
+
 @pytest.fixture(scope="session")
 def demo_app(demo_url: str) -> Iterator[Flask]:
     """An app on the demo town, shared by the read-only tests of one backend."""
-    app = create_app({"DATABASE_URL": demo_url, "TESTING": True})
+    app = new_app(demo_url)
     yield app
     app.extensions["plantdb.database"].dispose()
 
@@ -102,13 +151,39 @@ def make_app(db_url: str) -> Iterator[Callable[..., Flask]]:
     def build(bundle: Bundle | dict[str, Any] | None = None, **config: Any) -> Flask:
         if bundle is not None:
             load_into(db_url, bundle.data if isinstance(bundle, Bundle) else bundle)
-        app = create_app({"DATABASE_URL": db_url, "TESTING": True, **config})
+        app = new_app(db_url, **config)
         apps.append(app)
         return app
 
     yield build
     for app in apps:
         app.extensions["plantdb.database"].dispose()
+
+
+PASSWORD = "kittiwake cliff 41"
+
+
+def add_person_to(url: str, name: str, role: str, password: str = PASSWORD) -> None:
+    """Add a person to the database at `url` (from then on, the app needs sign-in)."""
+    database = Database(url)
+    try:
+        run_in_transaction(database, lambda session: add_person(session, name, role, password))
+    finally:
+        database.dispose()
+
+
+def token_for(url: str, name: str) -> str:
+    """A new API token for the person."""
+    database = Database(url)
+    try:
+        return run_in_transaction(database, lambda session: add_token(session, name))
+    finally:
+        database.dispose()
+
+
+def sign_in(client: FlaskClient, name: str, password: str = PASSWORD, **extra: Any) -> Any:
+    """Sign the client in through the sign-in form; the answer (303 when it worked)."""
+    return client.post("/sign-in", data={"name": name, "password": password}, **extra)
 
 
 def page_text(response: Any) -> str:

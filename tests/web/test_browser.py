@@ -12,6 +12,7 @@ import os
 import shutil
 import threading
 from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -19,6 +20,7 @@ from typing import Any
 import pytest
 from werkzeug.serving import make_server
 
+from tests.web.conftest import PASSWORD, add_person_to
 from webui import create_app
 
 pytestmark = [pytest.mark.browser, pytest.mark.xdist_group("browser")]
@@ -35,11 +37,14 @@ TABLET = {"width": 1024, "height": 768}
 WAIT_MS = 15_000
 
 
-@pytest.fixture(scope="module")
-def server(tmp_path_factory: pytest.TempPathFactory, demo_sqlite: Path) -> Iterator[str]:
-    """The app on its own copy of the demo town, served on a free port of 127.0.0.1."""
-    path = tmp_path_factory.mktemp("browser") / "demo.sqlite"
+@contextmanager
+def _serving(folder: Path, demo_sqlite: Path, people: dict[str, str]) -> Iterator[str]:
+    """The app on its own copy of the demo town with these people (name: role), served on a
+    free port of 127.0.0.1."""
+    path = folder / "demo.sqlite"
     shutil.copyfile(demo_sqlite, path)
+    for name, role in people.items():
+        add_person_to(f"sqlite:///{path}", name, role)
     app = create_app({"DATABASE_URL": f"sqlite:///{path}"})
     http = make_server("127.0.0.1", 0, app, threaded=True)
     thread = threading.Thread(target=http.serve_forever, daemon=True)
@@ -49,6 +54,21 @@ def server(tmp_path_factory: pytest.TempPathFactory, demo_sqlite: Path) -> Itera
     thread.join(timeout=10)
     http.server_close()
     app.extensions["plantdb.database"].dispose()
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory: pytest.TempPathFactory, demo_sqlite: Path) -> Iterator[str]:
+    """The demo town with nobody defined: open to this machine, no sign-in."""
+    with _serving(tmp_path_factory.mktemp("browser"), demo_sqlite, {}) as address:
+        yield address
+
+
+@pytest.fixture(scope="module")
+def staffed_server(tmp_path_factory: pytest.TempPathFactory, demo_sqlite: Path) -> Iterator[str]:
+    """The demo town with a clerk defined: everything needs sign-in."""
+    people = {"wren": "clerk"}
+    with _serving(tmp_path_factory.mktemp("staffed"), demo_sqlite, people) as address:
+        yield address
 
 
 @pytest.fixture(scope="module")
@@ -115,6 +135,17 @@ def visit(
     tab = Visit(page, server)
     page.on("request", lambda r: tab.requests.append(r.url))
     page.on("pageerror", lambda e: tab.errors.append(str(e)))
+    # A content-security-policy violation (an inline style or script the policy refuses) shows
+    # as a console error; so does any other script error the page logs. (Failed loads are
+    # judged by the response listener below, which knows a 422 page is on purpose.)
+    page.on(
+        "console",
+        lambda m: (
+            tab.errors.append(f"console: {m.text}")
+            if m.type == "error" and not m.text.startswith("Failed to load resource")
+            else None
+        ),
+    )
     # A refused page answers 422 on purpose; anything else a page loads must be found.
     page.on(
         "response",
@@ -284,6 +315,22 @@ def test_pages_load_nothing_from_outside_the_server(visit: Visit) -> None:
     # The check that none left the server runs as the tab closes (see the `visit` fixture).
 
 
+def test_pages_satisfy_the_content_security_policy(visit: Visit) -> None:
+    seen: list[str] = []
+    visit.page.on("response", lambda r: seen.append(r.headers.get("content-security-policy", "")))
+    for path in ("/", "/closures/QM-SC-CABN", "/closures/QM-SC-CABN/print", "/dispatch/"):
+        visit.open(path)
+        visit.page.wait_for_load_state("networkidle")
+    assert seen and all("object-src 'none'" in policy for policy in seen if policy)
+    # The printed sheet's swatches are coloured by the linked stylesheet, not inline styles.
+    visit.open("/closures/QM-SC-CABN/print")
+    colour = visit.page.eval_on_selector(
+        ".swatch.tia-1", "node => getComputedStyle(node).backgroundColor"
+    )
+    assert colour not in ("", "rgba(0, 0, 0, 0)")
+    # Violations are collected as console errors; the fixture fails the test on any.
+
+
 def test_the_keyboard_reaches_the_page_and_the_map(visit: Visit) -> None:
     visit.open("/")
     visit.map_ready()
@@ -300,3 +347,32 @@ def test_the_keyboard_reaches_the_page_and_the_map(visit: Visit) -> None:
     link.focus()
     page.keyboard.press("Enter")
     page.wait_for_url("**/closures/QM-SC-PL06")
+
+
+def test_signing_in_and_out(browser: Any, staffed_server: str) -> None:
+    context = browser.new_context(viewport=TABLET)
+    context.set_default_timeout(WAIT_MS)
+    page = context.new_page()
+    errors: list[str] = []
+    page.on("pageerror", lambda e: errors.append(str(e)))
+    page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+    page.goto(staffed_server + "/closures/QM-SC-CABN")
+    page.wait_for_url("**/sign-in?next=/closures/QM-SC-CABN")
+    assert page.locator("#open-banner").count() == 0
+    page.get_by_label("Name").fill("wren")
+    page.get_by_label("Password").fill("not the password")
+    page.get_by_role("button", name="Sign in").click()
+    assert "not accepted" in page.locator("#sign-in-problem").inner_text()
+    errors.clear()  # the refusal page answers 401 on purpose
+    page.get_by_label("Password").fill(PASSWORD)
+    page.get_by_role("button", name="Sign in").click()
+    page.wait_for_url("**/closures/QM-SC-CABN")
+    assert page.locator("#signed-in-as").inner_text() == "wren (clerk)"
+    cookie = next(c for c in context.cookies() if c["name"] == "plantdb_session")
+    assert cookie["httpOnly"] and cookie["sameSite"] == "Lax"
+    page.get_by_role("button", name="Sign out").click()
+    page.wait_for_url("**/sign-in")
+    page.goto(staffed_server + "/circuits/")
+    page.wait_for_url("**/sign-in?next=/circuits/")
+    context.close()
+    assert not errors, errors

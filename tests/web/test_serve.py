@@ -6,6 +6,7 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -15,9 +16,11 @@ from flask import Flask
 
 from plantdb.cli import cli
 
+PASSWORD = "bittern reed 88"
+
 
 @pytest.fixture
-def served(monkeypatch: pytest.MonkeyPatch) -> dict[str, Any]:
+def served(monkeypatch: pytest.MonkeyPatch) -> Iterator[dict[str, Any]]:
     """Stands in for waitress.serve: records what it was asked to serve instead of blocking."""
     import waitress
 
@@ -28,7 +31,9 @@ def served(monkeypatch: pytest.MonkeyPatch) -> dict[str, Any]:
         calls.update(options)
 
     monkeypatch.setattr(waitress, "serve", serve)
-    return calls
+    yield calls
+    if "app" in calls:  # its database connections, closed rather than left to the collector
+        calls["app"].extensions["plantdb.database"].dispose()
 
 
 def test_serve_runs_the_app_under_waitress(db_url: str, served: dict[str, Any]) -> None:
@@ -48,17 +53,42 @@ def test_serve_options(
     db_url: str, served: dict[str, Any], monkeypatch: pytest.MonkeyPatch
 ) -> None:
     monkeypatch.setenv("PLANTDB_TILE_URL", "https://tiles.invalid/{z}/{x}/{y}.png")
+    added = CliRunner().invoke(
+        cli, ["user", "add", "ann", "--role", "admin", "--db", db_url], input=PASSWORD + "\n"
+    )
+    assert added.exit_code == 0, added.output
     argv = ["serve", "--db", db_url, "--host", "0.0.0.0", "--port", "8123", "--read-only"]
-    result = CliRunner().invoke(cli, [*argv, "--json"])
+    result = CliRunner().invoke(cli, [*argv, "--behind-proxy", "--json"])
     assert result.exit_code == 0, result.output
     assert json.loads(result.output) == {
         "serving": "http://0.0.0.0:8123/",
         "database": db_url,
         "read_only": True,
+        "behind_proxy": True,
     }
     assert (served["host"], served["port"]) == ("0.0.0.0", 8123)
-    assert served["app"].config["READ_ONLY"] is True
-    assert served["app"].config["TILE_URL"] == "https://tiles.invalid/{z}/{x}/{y}.png"
+    app: Flask = served["app"]
+    assert app.config["READ_ONLY"] is True and app.config["BEHIND_PROXY"] == 1
+    assert app.config["TILE_URL"] == "https://tiles.invalid/{z}/{x}/{y}.png"
+    # The base map's host is the one outside source the pages may load images from.
+    policy = app.test_client().get("/sign-in").headers["Content-Security-Policy"]
+    assert "img-src 'self' https://tiles.invalid;" in policy
+
+
+def test_with_nobody_defined_serve_listens_on_this_machine_only(
+    db_url: str, served: dict[str, Any]
+) -> None:
+    for host in ("0.0.0.0", "192.0.2.10", "::", "plant.example"):
+        result = CliRunner().invoke(cli, ["serve", "--db", db_url, "--host", host])
+        assert result.exit_code == 1, host
+        assert f"plantdb: --host {host}: nobody is defined" in result.stderr
+        assert "listens on 127.0.0.1 only until a person is added" in result.stderr
+        assert "app" not in served
+    for host in ("127.0.0.1", "localhost", "::1", "127.0.0.2"):
+        result = CliRunner().invoke(cli, ["serve", "--db", db_url, "--host", host])
+        assert result.exit_code == 0, (host, result.output)
+        assert served["host"] == host
+        served.pop("app").extensions["plantdb.database"].dispose()
 
 
 def test_serve_refuses_a_database_it_cannot_serve(tmp_path: Path, served: dict[str, Any]) -> None:
