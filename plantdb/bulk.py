@@ -1,31 +1,39 @@
-"""Fast bulk loading of rows with known ids: COPY on PostgreSQL, executemany on SQLite.
+"""Fast bulk loading of rows: COPY on PostgreSQL, executemany on SQLite.
 
-For generators that build a whole plant into an empty database (millions of rows): the ORM's
-unit of work, or even Core's per-statement bookkeeping, would dominate the time. Rows are
-plain tuples in the table's column order given by `columns`; the caller assigns ids.
+For generators that build a whole plant into an empty database (millions of rows), and for a
+splice-sheet import's hundred thousand splices: the ORM's unit of work, or even Core's
+per-row parameter handling, would dominate the time. Rows are plain tuples in the order of
+`columns`; ids are the caller's or, where the caller leaves the column out, the database's.
 """
 
 from __future__ import annotations
 
+import datetime as dt
+import gc
 import json
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from typing import Any
 
-from sqlalchemy import Connection, text
+from sqlalchemy import Connection, Date, DateTime, text
+from sqlalchemy.exc import DBAPIError
 
 from plantdb.model import Base
 
 JSON_COLUMNS = {("span", "geometry")}
+# From this many rows PostgreSQL gets COPY; fewer (a clerk's few splices) go as one INSERT
+# executemany, which costs less to set up and is an ordinary statement to everything watching.
+COPY_ROWS = 1_000
 
 
 class BulkWriter:
     """Writes tuples into tables over one connection, inside the caller's transaction."""
 
-    def __init__(self, connection: Connection) -> None:
+    def __init__(self, connection: Connection, *, page_cache: bool = True) -> None:
         self.connection = connection
         self.postgres = connection.dialect.name == "postgresql"
         self.counts: dict[str, int] = {}
-        if not self.postgres:
+        if not self.postgres and page_cache:
             # A big page cache keeps the indexes' B-trees in memory while millions of rows go
             # in; the default (2 MB) turns every insert into page reads once tables outgrow it.
             connection.exec_driver_sql("PRAGMA cache_size = -1000000")
@@ -39,29 +47,53 @@ class BulkWriter:
         known = Base.metadata.tables.get(table)
         if known is None or any(c not in known.c for c in columns):
             raise ValueError(f"unknown table or column in {table}({', '.join(columns)})")
-        json_at = [i for i, c in enumerate(columns) if (table, c) in JSON_COLUMNS]
-        if json_at:
+        convert = self._converters(table, columns)
+        if convert:
             batch = [
-                tuple(json.dumps(v) if i in json_at else v for i, v in enumerate(row))
+                tuple(convert[i](v) if i in convert else v for i, v in enumerate(row))
                 for row in batch
             ]
-        if self.postgres:
+        if self.postgres and len(batch) >= COPY_ROWS:
             self._copy(table, columns, batch)
         else:
-            marks = ", ".join("?" for _ in columns)
+            mark = "?" if self.connection.dialect.paramstyle == "qmark" else "%s"
+            marks = ", ".join(mark for _ in columns)
             statement = f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks})"  # noqa: S608
             self.connection.exec_driver_sql(statement, batch)
         self.counts[table] = self.counts.get(table, 0) + len(batch)
 
+    def _converters(self, table: str, columns: Sequence[str]) -> dict[int, Callable[[Any], Any]]:
+        """Per column position, what turns a Python value into the driver's value.
+
+        JSON goes as its text. On SQLite dates and times go as SQLAlchemy stores them (the
+        column type's own bind processor), not through the sqlite3 module's adapters.
+        """
+        found: dict[int, Callable[[Any], Any]] = {}
+        known = Base.metadata.tables[table]
+        for i, name in enumerate(columns):
+            if (table, name) in JSON_COLUMNS:
+                found[i] = json.dumps
+            elif not self.postgres and isinstance(known.c[name].type, Date | DateTime):
+                process = known.c[name].type.bind_processor(self.connection.dialect)
+                if process is not None:
+                    found[i] = _keep_none(process)
+        return found
+
     def _copy(self, table: str, columns: Sequence[str], rows: list[Sequence[Any]]) -> None:
+        import psycopg
+
         raw = self.connection.connection.driver_connection
         assert raw is not None
-        with (
-            raw.cursor() as cursor,
-            cursor.copy(f"COPY {table} ({', '.join(columns)}) FROM STDIN") as copy,
-        ):
-            for row in rows:
-                copy.write_row(row)
+        statement = f"COPY {table} ({', '.join(columns)}) FROM STDIN"
+        try:
+            with raw.cursor() as cursor, cursor.copy(statement) as copy:
+                for row in rows:
+                    copy.write_row(row)
+        except psycopg.Error as exc:
+            # Raised as SQLAlchemy raises a statement's error (a unique violation becomes its
+            # IntegrityError), so that callers that tell a lost race from a mistake, and the
+            # retrying transaction, see COPY's errors as they see an INSERT's.
+            raise DBAPIError.instance(statement, None, exc, psycopg.Error) from exc
 
     def finish(self) -> None:
         """Move PostgreSQL's id sequences past the ids written, and refresh planner stats."""
@@ -73,3 +105,27 @@ class BulkWriter:
                 sql = "SELECT setval(pg_get_serial_sequence(:name, 'id'), (SELECT max(id) FROM "
                 self.connection.execute(text(sql + table.name + "))"), {"name": table.name})
         self.connection.exec_driver_sql("ANALYZE")
+
+
+def _keep_none(process: Callable[[Any], Any]) -> Callable[[Any], Any]:
+    def convert(value: dt.date | dt.datetime | None) -> Any:
+        return None if value is None else process(value)
+
+    return convert
+
+
+@contextmanager
+def collector_paused() -> Iterator[None]:
+    """Pause CPython's cyclic garbage collector for bulk work (a big sheet read or checked).
+
+    Such work builds hundreds of thousands of long-lived objects and no cycles; the
+    generational collector would rescan them over and over (about a third of the time).
+    Reference counting still frees everything; the previous setting is restored after.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()

@@ -46,6 +46,12 @@ class RawConnection:
             sql = sql.replace("?", "%s")
         return list(self.connection.execute(sql, params).fetchall())
 
+    def execute(self, sql: str, params: tuple[Any, ...] = ()) -> None:
+        """A statement that returns no rows."""
+        if self.postgres:
+            sql = sql.replace("?", "%s")
+        self.connection.execute(sql, params)
+
     def executemany(self, sql: str, rows: list[tuple[Any, ...]]) -> None:
         if self.postgres:
             sql = sql.replace("?", "%s")

@@ -66,6 +66,7 @@ class ImportBench:
         self.folder = Path(tempfile.mkdtemp(prefix="plantdb-bench-"))
         self.joints: list[tuple[str, str, str, int, str]] = []
         self.trunks: list[int] = []
+        self.last_change = 0
 
     def _plan(self) -> sp.Plan:
         with self.database.read() as session:
@@ -168,6 +169,8 @@ class ImportBench:
             )
 
     def _undo(self) -> None:
+        """Take the sheet's splices out again, and their history rows, so that every run
+        imports into the same record (a history that grew run by run would not be)."""
         closures = [(closure_id,) for closure_id in self._closure_ids()]
         with _transaction(self.raw):
             self.raw.executemany(
@@ -187,9 +190,12 @@ class ImportBench:
             return refresh_circuits(session, ids)
 
         run_in_transaction(self.database, reset)
+        with _transaction(self.raw):
+            self.raw.execute("DELETE FROM change WHERE id > ?", (self.last_change,))
 
     def run(self, repeat: int) -> Result:
         path = self._write_sheet()
+        self.last_change = self.raw.query("SELECT COALESCE(MAX(id), 0) FROM change")[0][0]
         count = sum(j[3] for j in self.joints)
 
         def action() -> None:

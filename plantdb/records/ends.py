@@ -13,7 +13,9 @@ from plantdb.errors import PlantError
 from plantdb.records.lookup import CableInfo, PlaceInfo, RecordLookup, StationInfo
 
 
-@dataclass(frozen=True)
+# Slots, not frozen (treat it as read-only all the same): a splice-sheet import makes two per
+# splice, and a frozen dataclass's __init__ sets each field through object.__setattr__.
+@dataclass(slots=True)
 class EndRef:
     """A fiber end (a strand's end at a station) or a splitter leg, ready to connect."""
 

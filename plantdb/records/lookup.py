@@ -108,6 +108,16 @@ class PlaceInfo:
     port_count: int = 0
 
 
+# The kind of a usage key -> the token under which its owner's usage is loaded once.
+_USAGE_TOKENS: dict[object, str] = {
+    "end": "cable",
+    "back": "port",
+    "front": "port",
+    "leg": "leg",
+    "slot": "tray",
+}
+
+
 class RecordLookup:
     """Label -> row answers with caches, valid inside one session's transaction."""
 
@@ -347,7 +357,10 @@ class RecordLookup:
         Keys: ("end", cable_id, strand_id, station_id, side), ("leg", leg_id),
         ("back", port_id), ("front", port_id), ("slot", tray_id, slot).
         """
-        self._load_usage(key)
+        # Asked three times per splice of a big sheet: the loaded check is inlined.
+        token = (_USAGE_TOKENS[key[0]], key[1])
+        if token not in self._loaded_usage:
+            self._load_usage(key)
         return self._used.get(key)
 
     def occupy(self, key: tuple[object, ...], what: str) -> None:

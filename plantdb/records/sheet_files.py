@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, BinaryIO
 
+from plantdb.bulk import collector_paused
 from plantdb.errors import PlantError
 
 COLUMNS = (
@@ -60,7 +61,9 @@ XLSX_RATIO_FLOOR = 1024 * 1024  # small members may compress well without harm
 FORMULA_LEADS = ("=", "+", "-", "@", "\t", "\r")
 
 
-@dataclass(frozen=True)
+# Slots, not frozen (read-only all the same): a big sheet makes one per line, and a frozen
+# dataclass's __init__ sets each field through object.__setattr__.
+@dataclass(slots=True)
 class SheetRow:
     """One row of a sheet: its cells by column name (stripped text, "" when empty)."""
 
@@ -70,7 +73,7 @@ class SheetRow:
 
     def __post_init__(self) -> None:
         if not self.where:
-            object.__setattr__(self, "where", f"line {self.line}")
+            self.where = f"line {self.line}"
 
     def get(self, column: str) -> str:
         return self.cells.get(column, "")
@@ -125,24 +128,29 @@ def _cell_problem(name: str, text: str) -> str | None:
 
 def _row(line: int, cells: list[str], header: list[str | None], sheet: Sheet) -> None:
     values: dict[str, str] = {}
+    width = len(header)
     for i, raw in enumerate(cells):
         text = raw.strip()
         if not text:
             continue
-        name = header[i] if i < len(header) else None
+        name = header[i] if i < width else None
         if name is None:
             sheet.problems.append(f"line {line}: a value ({text[:20]!r}) under no column")
             continue
-        problem = _cell_problem(name, text)
-        if problem:
-            sheet.problems.append(f"line {line}: {problem}")
+        if len(text) > MAX_CELL_CHARS or "\x00" in text:
+            sheet.problems.append(f"line {line}: {_cell_problem(name, text)}")
             continue
-        values[name] = unquote(text)
+        values[name] = unquote(text) if text[0] == "'" else text
     if values:
         sheet.rows.append(SheetRow(line, values))
 
 
 def _fill(sheet: Sheet, records: Iterable[tuple[int, list[str]]]) -> Sheet:
+    with collector_paused():
+        return _fill_rows(sheet, records)
+
+
+def _fill_rows(sheet: Sheet, records: Iterable[tuple[int, list[str]]]) -> Sheet:
     header: list[str | None] | None = None
     for line, cells in records:
         if line > MAX_LINES:

@@ -15,6 +15,7 @@ import re
 
 from sqlalchemy.orm import Session
 
+from plantdb.bulk import collector_paused
 from plantdb.records.sheet_files import Sheet, SheetRow
 from plantdb.records.splicing import (
     METHODS,
@@ -38,21 +39,27 @@ class _RowProblems(Exception):
 class _Cells:
     """Reads a row's cells, collecting a problem for each bad one instead of stopping."""
 
+    __slots__ = ("get", "problems")
+
     def __init__(self, row: SheetRow) -> None:
-        self.row = row
+        self.get = row.cells.get
         self.problems: list[str] = []
 
     def text(self, column: str, *, required: bool = False) -> str:
-        value = self.row.get(column)
+        value = self.get(column, "")
         if required and not value:
             self.problems.append(f"{column} is empty")
         return value
 
     def whole(self, column: str) -> int:
-        value = self.text(column, required=True)
-        if value and not value.isdigit():
-            self.problems.append(f"{column} {value!r} is not a whole number")
-        return int(value) if value.isdigit() else 0
+        value = self.get(column, "")
+        # isdecimal, not isdigit: "²" is a digit that int() refuses.
+        if value.isdecimal():
+            return int(value)
+        self.problems.append(
+            f"{column} {value!r} is not a whole number" if value else f"{column} is empty"
+        )
+        return 0
 
     def loss(self) -> float | None:
         value = self.text("loss_db")
@@ -80,19 +87,25 @@ class _Cells:
             return None
 
     def side(self, column: str) -> str | None:
-        value = self.text(column).upper()
-        if value and value not in ("A", "B"):
+        value = self.get(column, "")
+        if not value:
+            return None
+        value = value.upper()
+        if value not in ("A", "B"):
             self.problems.append(f"{column} {value!r} is not A or B (or empty at a cable's end)")
         return value if value in ("A", "B") else None
 
     def method(self) -> str | None:
-        value = self.text("method").lower()
-        if value and value not in METHODS:
+        value = self.get("method", "")
+        if not value:
+            return None
+        value = value.lower()
+        if value not in METHODS:
             self.problems.append(f"method {value!r} is not one of {', '.join(METHODS)}")
         return value or None
 
     def spliced_by(self) -> str | None:
-        value = self.text("spliced_by")
+        value = self.get("spliced_by", "")
         if len(value) > SPLICED_BY_CHARS:
             self.problems.append(f"spliced_by is longer than {SPLICED_BY_CHARS} characters")
         return value or None
@@ -155,7 +168,8 @@ def import_sheet(
     With problems in the cells, the good rows are still checked against the record, so the
     report lists every problem of the sheet at once, in line order.
     """
-    requests, problems = requests_from_sheet(sheet)
+    with collector_paused():
+        requests, problems = requests_from_sheet(sheet)
     report = record_splices(session, requests, dry_run=dry_run or bool(problems), progress=progress)
     if problems:
         report.problems = sorted(problems + report.problems, key=_position)

@@ -9,21 +9,21 @@ when the report lists problems nothing was written and the caller refuses the wh
 
 from __future__ import annotations
 
-import gc
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any, TypeVar
 
-from sqlalchemy import insert, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from plantdb.audit import record_changes
+from plantdb.bulk import BulkWriter, collector_paused
 from plantdb.db import racing_for
 from plantdb.errors import PlantError
-from plantdb.model import ConstructionKind, Cut, FiberEnd, FiberType, Splice, SpliceMethod
-from plantdb.records.bundle_connections import ABSURD_SPLICE_LOSS_DB, cut_row, end_row, new_cut_ends
+from plantdb.model import ConstructionKind, FiberType, Splice, SpliceMethod
+from plantdb.records.bundle_connections import ABSURD_SPLICE_LOSS_DB, new_cut_ends
 from plantdb.records.bundle_load import LoadContext
 from plantdb.records.changes import cuts_added, splice_added
 from plantdb.records.ends import EndRef, resolve_splice_end, sibling_end
@@ -56,6 +56,19 @@ __all__ = [
 
 # What a clerk is told when every attempt met another clerk's splice or cut (see `racing_for`).
 RACED = "another clerk recorded a splice or cut on these fiber ends or tray slots"
+# The columns the bulk write gives, in the order of the rows' tuples (ids are the database's).
+CUT_COLUMNS = ("strand_id", "station_id")
+SPLICE_COLUMNS = (
+    "closure_id",
+    "tray_id",
+    "tray_capacity",
+    "slot",
+    "method",
+    "loss_db",
+    "spliced_on",
+    "spliced_by",
+)
+END_COLUMNS = ("strand_id", "station_id", "side", "leg_id", "splice_id", "splice_side")
 # Progress is reported every this many requests (a sheet of 100,000 rows moves a bar 100 times).
 PROGRESS_STEP = 1000
 _T = TypeVar("_T")
@@ -87,17 +100,19 @@ class _Planned:
     method: SpliceMethod
     request: SpliceRequest
 
-    def row(self) -> dict[str, Any]:
-        return {
-            "closure_id": self.closure.id,
-            "tray_id": self.tray_id,
-            "tray_capacity": self.capacity,
-            "slot": self.slot,
-            "method": self.method,
-            "loss_db": self.request.loss_db,
-            "spliced_on": self.request.spliced_on,
-            "spliced_by": self.request.spliced_by,
-        }
+    def row(self) -> tuple[Any, ...]:
+        """The splice row, in `SPLICE_COLUMNS` order."""
+        request = self.request
+        return (
+            self.closure.id,
+            self.tray_id,
+            self.capacity,
+            self.slot,
+            self.method.value,
+            request.loss_db,
+            request.spliced_on,
+            request.spliced_by,
+        )
 
     def describe(self) -> dict[str, Any]:
         on = self.request.spliced_on
@@ -198,29 +213,32 @@ class _Planner:
         return closure, a, b, method, tray_id, capacity
 
     def _group(self, group: EndGroup, closure: PlaceInfo) -> _Group:
-        kind = self.lookup.place_kind(group.label)
         side = group.side.upper() if group.side else None
         if side not in (None, "A", "B"):
             raise PlantError(f"{group}: a side is A or B, not {group.side!r}")
-        if kind == "splitter":
-            if side:
-                raise PlantError(f"{group}: a splitter leg has no side")
-            splitter = self.lookup.splitter(group.label)
-            assert splitter is not None
-            self.splitter_ids.add(splitter.id)
-            legs = self._notation(group, leg_names, group.points)
-            ends = [
-                resolve_splice_end(self.lookup, f"{group.label}:{leg}", closure) for leg in legs
-            ]
-            return _Group(ends, None)
-        if kind != "cable":
-            raise PlantError(f"{group.label}: no cable or splitter is labelled {group.label}")
-        cable = self.lookup.cable(group.label)
-        assert cable is not None
+        cable = self.lookup.cable(group.label)  # a cable first: labels share one namespace
+        if cable is None:
+            return self._legs(group, side, closure)
         run = self._notation(group, strand_run, group.points, _construction(cable))
-        first = self._first_end(closure, cable, run.numbers[0], side)
-        ends = [first] + [sibling_end(self.lookup, first, cable, n) for n in run.numbers[1:]]
+        numbers = run.numbers
+        first = self._first_end(closure, cable, numbers[0], side)
+        if len(numbers) == 1:
+            return _Group([first], cable, run.whole_unit)
+        ends = [first] + [sibling_end(self.lookup, first, cable, n) for n in numbers[1:]]
         return _Group(ends, cable, run.whole_unit)
+
+    def _legs(self, group: EndGroup, side: str | None, closure: PlaceInfo) -> _Group:
+        kind = self.lookup.place_kind(group.label)
+        if kind != "splitter":
+            raise PlantError(f"{group.label}: no cable or splitter is labelled {group.label}")
+        if side:
+            raise PlantError(f"{group}: a splitter leg has no side")
+        splitter = self.lookup.splitter(group.label)
+        assert splitter is not None
+        self.splitter_ids.add(splitter.id)
+        legs = self._notation(group, leg_names, group.points)
+        ends = [resolve_splice_end(self.lookup, f"{group.label}:{leg}", closure) for leg in legs]
+        return _Group(ends, None)
 
     @staticmethod
     def _notation(group: EndGroup, read: Callable[..., _T], *args: Any) -> _T:
@@ -365,14 +383,19 @@ class _Planner:
         self.report.splices = [p.describe() for p in self.planned]
         if dry_run or not self.planned:
             return
-        with _sqlite_cache(self.session, len(self.planned)), racing_for(RACED):
-            self._insert(Cut, [cut_row(end) for _closure, end in cuts])
-            self._insert(Splice, [p.row() for p in self.planned])
+        with racing_for(RACED):
+            # Straight to the driver (COPY on PostgreSQL): the rows are checked already, and
+            # a compiled statement's per-row parameter handling would cost more than the
+            # database spends writing them.
+            writer = BulkWriter(self.session.connection(), page_cache=False)
+            writer.write("cut", CUT_COLUMNS, [(e.strand_id, e.station_id) for _c, e in cuts])
+            writer.write("splice", SPLICE_COLUMNS, [p.row() for p in self.planned])
             splice_ids = self._new_splice_ids()
-            self._insert(
-                FiberEnd,
+            writer.write(
+                "fiber_end",
+                END_COLUMNS,
                 [
-                    {**end_row(end), "splice_id": splice_id, "splice_side": side}
+                    (end.strand_id, end.station_id, end.side, end.leg_id, splice_id, side)
                     for splice_id, planned in zip(splice_ids, self.planned, strict=True)
                     for side, end in ((1, planned.a), (2, planned.b))
                 ],
@@ -389,12 +412,6 @@ class _Planner:
             strand_ids={e.strand_id for e in ends if e.strand_id is not None},
             splitter_ids=self.splitter_ids,
         )
-
-    def _insert(self, model: Any, rows: list[dict[str, Any]]) -> None:
-        # The table's own INSERT, one executemany: the ORM's bulk path spends more time
-        # sorting out mapped attributes than the database spends writing the rows.
-        if rows:
-            self.session.execute(insert(model.__table__), rows)
 
     def _new_splice_ids(self) -> list[int]:
         """Ids of the splices just written, read back by their unique (tray, slot).
@@ -448,7 +465,7 @@ def record_splices(
 ) -> SpliceReport:
     """Check every request, then write them all (unless a dry run or any problem)."""
     planner = _Planner(session)
-    with _collector_paused():
+    with collector_paused(), _sqlite_cache(session, len(requests)):
         for n, request in enumerate(requests, start=1):
             planner.check(request)
             if progress is not None and n % PROGRESS_STEP == 0:
@@ -481,20 +498,3 @@ def _sqlite_cache(session: Session, splices: int) -> Iterator[None]:
         yield
     finally:
         connection.exec_driver_sql(f"PRAGMA cache_size = {int(before or -2000)}")
-
-
-@contextmanager
-def _collector_paused() -> Iterator[None]:
-    """Pause CPython's cyclic garbage collector for a bulk check.
-
-    Checking a large sheet builds hundreds of thousands of long-lived objects and no cycles;
-    the generational collector would rescan them over and over (about a third of the time).
-    Reference counting still frees everything; the previous setting is restored after.
-    """
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_enabled:
-            gc.enable()

@@ -83,6 +83,10 @@ def _whole_unit(word: str, which: str, cable: Construction) -> StrandRun:
 
 def strand_run(text: str, cable: Construction) -> StrandRun:
     """The strands a cell names ("37", "13-24", "BL/OR", "BL/BL-BL/AQ", "tube 2"); ValueError."""
+    if text.isdecimal():  # the commonest cell by far, read first (what \d+ matches)
+        number = int(text)
+        _in_cable(number, number, cable)
+        return StrandRun((number,))
     cell = " ".join(text.split())
     if not cell:
         raise ValueError("no strand given")

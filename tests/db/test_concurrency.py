@@ -24,9 +24,10 @@ from sqlalchemy import event, func, select, text
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
+from plantdb.bulk import COPY_ROWS, BulkWriter
 from plantdb.db import Database, racing_for, run_in_transaction
 from plantdb.errors import PlantError, RaceLost
-from plantdb.model import Cut, FiberEnd, Splice
+from plantdb.model import Cut, FiberEnd, Setting, Splice
 from plantdb.records.bundle import dump_bundle, load_bundle
 from plantdb.records.sheet_files import COLUMNS, read_csv_sheet
 from plantdb.records.sheet_import import import_sheet
@@ -503,3 +504,31 @@ def test_only_a_unique_violation_is_a_lost_race(probe: Database) -> None:
     with pytest.raises(IntegrityError):  # NOT NULL: no race on any backend
         run_in_transaction(probe, lambda s: insert(s, "('c', NULL)"))
     assert counters(probe) == {"a": 0, "b": 0}
+
+
+@pytest.mark.parametrize("rows", [3, COPY_ROWS + 5], ids=["insert", "copy"])
+def test_a_bulk_write_meeting_a_unique_row_is_a_lost_race(database: Database, rows: int) -> None:
+    """A splice-sheet import writes its rows in bulk (COPY on PostgreSQL from COPY_ROWS rows):
+    a row another clerk committed first must still surface as SQLAlchemy's IntegrityError,
+    and inside `racing_for` as a lost race, as an ordinary INSERT's would."""
+    run_in_transaction(database, lambda s: s.add(Setting(key="k-1", value="theirs")))
+    batch = [(f"k-{n}", "mine") for n in range(rows, 0, -1)]  # "k-1" last: after many rows
+
+    def write(session: Session) -> None:
+        BulkWriter(session.connection(), page_cache=False).write("setting", SETTING, batch)
+
+    with pytest.raises(IntegrityError):
+        run_in_transaction(database, write)
+    if database.dialect == "postgresql":
+
+        def raced(session: Session) -> None:
+            with racing_for("another clerk recorded these"):
+                write(session)
+
+        with pytest.raises(RaceLost, match="another clerk recorded these just now"):
+            run_in_transaction(database, raced, attempts=2)
+    with database.read() as session:  # nothing of the refused batch was written
+        assert session.scalars(select(Setting.value)).all() == ["theirs"]
+
+
+SETTING = ("key", "value")
