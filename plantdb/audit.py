@@ -17,9 +17,10 @@ from contextvars import ContextVar
 from dataclasses import dataclass
 from typing import Any, cast
 
-from sqlalchemy import Connection, Dialect, Table, insert
+from sqlalchemy import Connection, Table, insert
 from sqlalchemy.orm import Session
 
+from plantdb.bulk import BulkWriter
 from plantdb.errors import PlantError
 from plantdb.model.history import ACTOR_LENGTH, CHANGE_LABEL_LENGTH, Change, ChangeAction
 
@@ -81,6 +82,8 @@ class ChangeRow:
     circuit_id: int | None = None
 
 
+# The databases whose drivers get the rows straight (see `plantdb.bulk`).
+BULK_DIALECTS = ("sqlite", "postgresql")
 _COLUMNS = (
     "at",
     "actor",
@@ -95,17 +98,6 @@ _COLUMNS = (
     "before",
     "after",
 )
-_INSERT = (
-    "INSERT INTO change (at, actor, action, entity, entity_id, label, closure_id, cable_id,"
-    ' other_cable_id, circuit_id, "before", "after")'
-    " VALUES ({0}, {0}, {0}, {0}, {0}, {0}, {0}, {0}, {0}, {0}, {0}, {0})"
-)
-# The statement in each DB-API parameter style plantdb's drivers use (sqlite3, psycopg).
-_INSERTS = {
-    "qmark": _INSERT.format("?"),
-    "format": _INSERT.format("%s"),
-    "pyformat": _INSERT.format("%s"),
-}
 
 
 def record_changes(
@@ -116,14 +108,12 @@ def record_changes(
         return 0
     connection = session.connection() if isinstance(session, Session) else session
     when, actor = at or now_utc(), current_actor()
-    statement = _INSERTS.get(connection.dialect.paramstyle)
-    if statement is None:  # another driver: the ordinary statement
+    if connection.dialect.name not in BULK_DIALECTS:  # another driver: the ordinary statement
         connection.execute(insert(_CHANGE), [_row_values(row, when, actor) for row in rows])
         return len(rows)
-    # Straight to the driver's executemany, each value already in the driver's form: the
-    # per-row parameter handling of a compiled statement would cost more than the database
-    # spends writing, and a splice-sheet import writes a row per splice.
-    when = _bound("at", connection.dialect, when)
+    # Straight to the driver (COPY on PostgreSQL for many rows): the per-row parameter
+    # handling of a compiled statement would cost more than the database spends writing,
+    # and a splice-sheet import writes a row per splice.
     values = [
         (
             when,
@@ -141,7 +131,7 @@ def record_changes(
         )
         for row in rows
     ]
-    connection.exec_driver_sql(statement, values)
+    BulkWriter(connection, page_cache=False).write("change", _COLUMNS, values)
     return len(values)
 
 
@@ -158,9 +148,3 @@ _ENCODE = json.JSONEncoder(ensure_ascii=False, separators=(",", ":")).encode
 def _json(value: dict[str, Any] | None) -> str | None:
     # JSON text (SQL NULL for None): both drivers send text to a JSON column as it is.
     return None if value is None else _ENCODE(value)
-
-
-def _bound(column: str, dialect: Dialect, value: Any) -> Any:
-    """A value as the column's type hands it to the driver on this dialect."""
-    process = _CHANGE.c[column].type.bind_processor(dialect)
-    return process(value) if process else value

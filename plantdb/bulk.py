@@ -58,7 +58,7 @@ class BulkWriter:
         else:
             mark = "?" if self.connection.dialect.paramstyle == "qmark" else "%s"
             marks = ", ".join(mark for _ in columns)
-            statement = f"INSERT INTO {table} ({', '.join(columns)}) VALUES ({marks})"  # noqa: S608
+            statement = f'INSERT INTO "{table}" ({_names(columns)}) VALUES ({marks})'  # noqa: S608
             self.connection.exec_driver_sql(statement, batch)
         self.counts[table] = self.counts.get(table, 0) + len(batch)
 
@@ -84,7 +84,7 @@ class BulkWriter:
 
         raw = self.connection.connection.driver_connection
         assert raw is not None
-        statement = f"COPY {table} ({', '.join(columns)}) FROM STDIN"
+        statement = f'COPY "{table}" ({_names(columns)}) FROM STDIN'
         try:
             with raw.cursor() as cursor, cursor.copy(statement) as copy:
                 for row in rows:
@@ -105,6 +105,11 @@ class BulkWriter:
                 sql = "SELECT setval(pg_get_serial_sequence(:name, 'id'), (SELECT max(id) FROM "
                 self.connection.execute(text(sql + table.name + "))"), {"name": table.name})
         self.connection.exec_driver_sql("ANALYZE")
+
+
+def _names(columns: Sequence[str]) -> str:
+    # Quoted: a column may be named by an SQL keyword (the history's "before" and "after").
+    return ", ".join(f'"{name}"' for name in columns)
 
 
 def _keep_none(process: Callable[[Any], Any]) -> Callable[[Any], Any]:

@@ -12,7 +12,7 @@ from plantdb.trace.service import trace_document
 from webui import geometry, params
 from webui.search import search
 from webui.store import reading
-from webui.views import thing_url
+from webui.views import page_urls, thing_url
 
 blueprint = Blueprint("map", __name__)
 
@@ -53,7 +53,7 @@ def viewport() -> Any:
     box = params.bbox(request.args.get("bbox"))
     limit = int(current_app.config["MAP_FEATURE_LIMIT"])
     with reading() as session:
-        return jsonify(geometry.viewport(session, box, limit, _url))
+        return jsonify(geometry.viewport(session, box, limit, page_urls()))
 
 
 def _with_urls(found: list[dict[str, Any]]) -> list[dict[str, Any]]:

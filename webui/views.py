@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+from collections.abc import Callable
 from typing import Any
 from urllib.parse import quote
 
@@ -32,13 +33,26 @@ def thing_url(kind: str, label: str) -> str | None:
     A busy closure page links hundreds of things: the route is built once per kind and
     request, and each label quoted as werkzeug's path converter would (same URL as url_for).
     """
-    endpoint = PAGES.get(kind)
-    if endpoint is None:
-        return None
     routes: dict[str, str] = g.setdefault("thing_routes", {})
-    if kind not in routes:
-        routes[kind] = url_for(endpoint, label=_SLOT)
-    return routes[kind].replace(_SLOT, quote(str(label), safe="!$&'()*+,/:;=@"))
+    return _page_url(routes, kind, label)
+
+
+def page_urls() -> Callable[[str, str], str]:
+    """`thing_url` for one request that links thousands of things (a map viewport): the
+    routes are looked up once, not through the request context for every thing; "" for a
+    kind without a page."""
+    routes: dict[str, str] = g.setdefault("thing_routes", {})
+    return lambda kind, label: _page_url(routes, kind, label) or ""
+
+
+def _page_url(routes: dict[str, str], kind: str, label: str) -> str | None:
+    route = routes.get(kind)
+    if route is None:
+        endpoint = PAGES.get(kind)
+        if endpoint is None:
+            return None
+        route = routes[kind] = url_for(endpoint, label=_SLOT)
+    return route.replace(_SLOT, quote(str(label), safe="!$&'()*+,/:;=@"))
 
 
 def metres(value: float | None) -> str:

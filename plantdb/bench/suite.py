@@ -8,6 +8,7 @@ asserted in the test run.
 from __future__ import annotations
 
 import json
+import time
 from pathlib import Path
 from typing import Any
 
@@ -15,7 +16,7 @@ from sqlalchemy import select
 
 from plantdb.bench import baselines
 from plantdb.bench.imports import ImportBench
-from plantdb.bench.timing import Result, median_time
+from plantdb.bench.timing import Result, median_times
 from plantdb.db import Database, require_current_schema, schema_revisions, upgrade_schema
 from plantdb.errors import PlantError
 from plantdb.model import Setting
@@ -44,19 +45,19 @@ def default_database(fibers: int, seed: int) -> str:
     return f"sqlite:///{folder / f'synth-{fibers}-seed{seed}.sqlite'}"
 
 
-def prepare(url: str, fibers: int, seed: int) -> Database:
-    """The database holding the synthetic plant of (fibers, seed): reused, or built now."""
+def prepare(url: str, fibers: int, seed: int) -> tuple[Database, float | None]:
+    """The database holding the synthetic plant of (fibers, seed), reused or built now; and
+    the seconds the build took (None when reused)."""
     database = Database(url)
     try:
-        _fill(database, fibers, seed)
+        return database, _fill(database, fibers, seed)
     except BaseException:
         # A refused database must not leave its pooled connections to the garbage collector.
         database.dispose()
         raise
-    return database
 
 
-def _fill(database: Database, fibers: int, seed: int) -> None:
+def _fill(database: Database, fibers: int, seed: int) -> float | None:
     current, _head = schema_revisions(database.engine)
     if current is None:
         upgrade_schema(database.engine)
@@ -68,13 +69,16 @@ def _fill(database: Database, fibers: int, seed: int) -> None:
     if empty:
         from seed_data.synth import console_progress, run_synth
 
+        started = time.perf_counter()
         with database.writing() as session, session.begin():
             run_synth(session.connection(), fibers, seed, console_progress())
-    elif stored is None or json.loads(stored) != wanted:
+        return time.perf_counter() - started
+    if stored is None or json.loads(stored) != wanted:
         raise PlantError(
             f"{database.url} holds a different record (synthetic plant {stored or 'none'});"
             " give an empty database or the one built with the same --fibers and --seed"
         )
+    return None
 
 
 def _busiest(database: Database) -> dict[str, Any]:
@@ -87,8 +91,7 @@ def _busiest(database: Database) -> dict[str, Any]:
 
 def _measure(name: str, action: Any, baseline: Any, repeat: int, n: int = 1) -> Result:
     what, ratio, seconds = TARGETS[name]
-    median = median_time(action, repeat)
-    base = median_time(baseline, repeat) if baseline is not None else None
+    median, base = median_times(action, baseline, repeat)
     return Result(name, what, median, base, ratio, seconds, n)
 
 

@@ -39,23 +39,42 @@ class Result:
         return document
 
 
-def median_time(
+def median_times(
     action: Callable[[], Any],
+    baseline: Callable[[], Any] | None,
     repeat: int,
     warmup: int = 1,
     between: Callable[[], Any] | None = None,
-) -> float:
-    """Median wall time of `action` over `repeat` runs, after `warmup` untimed runs.
+    least_s: float = 1.0,
+    most: int = 200,
+) -> tuple[float, float | None]:
+    """Median wall times of `action` and of its `baseline`, run in turn after a warm-up.
 
-    `between` runs untimed after every run (to undo a write, for instance).
+    Taking them in turn, one of each per round, lets whatever else the machine is doing
+    weigh on both alike, so their ratio holds steadier than their times. At least `repeat`
+    rounds, and more (up to `most`) while the rounds so far took under `least_s`: a median
+    of seven runs of a millisecond says little. `between` runs untimed after every run (to
+    undo a write, for instance).
     """
-    samples = []
-    for i in range(warmup + repeat):
-        started = time.perf_counter()
-        action()
-        elapsed = time.perf_counter() - started
-        if between is not None:
-            between()
-        if i >= warmup:
-            samples.append(elapsed)
-    return statistics.median(samples)
+    timed: list[float] = []
+    base: list[float] = []
+    rounds = 0
+    spent = 0.0
+    while rounds < warmup + repeat or (spent < least_s and rounds < warmup + most):
+        elapsed = _timed(action, between)
+        other = _timed(baseline, between) if baseline is not None else 0.0
+        if rounds >= warmup:
+            timed.append(elapsed)
+            base.append(other)
+            spent += elapsed + other
+        rounds += 1
+    return statistics.median(timed), statistics.median(base) if baseline is not None else None
+
+
+def _timed(action: Callable[[], Any], between: Callable[[], Any] | None) -> float:
+    started = time.perf_counter()
+    action()
+    elapsed = time.perf_counter() - started
+    if between is not None:
+        between()
+    return elapsed

@@ -8,7 +8,7 @@ rows tell the lookup (`remember_*`, `occupy`) so later questions see them.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 
 from sqlalchemy import func, select
@@ -138,6 +138,79 @@ class RecordLookup:
         self._used: dict[tuple[object, ...], str] = {}
         self._loaded_usage: set[tuple[str, int]] = set()
         self._cuts: set[tuple[int, int]] = set()
+
+    # -- many at once ------------------------------------------------------------------
+    def prefetch(self, closures: Iterable[str], cables: Iterable[str]) -> None:
+        """Load what splicing asks of these closures and cables in a few queries.
+
+        The same answers the lazy lookups give one label at a time, for a big sheet naming
+        a thousand closures and cables: their ids, trays and taken slots, stations, strands,
+        and which fiber ends are already connected or cut.
+        """
+        closure_labels = sorted({c for c in closures if c not in self._closures})
+        cable_labels = sorted({c for c in cables if c not in self._cables})
+        for chunk in _chunks(closure_labels):
+            self._prefetch_closures(chunk)
+        for chunk in _chunks(cable_labels):
+            self._prefetch_cables(chunk)
+
+    def _prefetch_closures(self, labels: list[str]) -> None:
+        rows = self.session.execute(
+            select(Closure.id, Closure.label, Closure.structure_id).where(Closure.label.in_(labels))
+        ).all()
+        for label in labels:
+            self._closures[label] = None
+        ids = []
+        for closure_id, label, structure_id in rows:
+            self._closures[label] = PlaceInfo(closure_id, label, structure_id)
+            self._trays[closure_id] = {}
+            ids.append(closure_id)
+        if not ids:
+            return
+        trays = self.session.execute(
+            select(Tray.closure_id, Tray.number, Tray.id, Tray.capacity).where(
+                Tray.closure_id.in_(ids)
+            )
+        )
+        for closure_id, number, tray_id, capacity in trays:
+            self._trays[closure_id][number] = (tray_id, capacity)
+            self._loaded_usage.add(("tray", tray_id))
+        slots = self.session.execute(
+            select(Splice.tray_id, Splice.slot).where(Splice.closure_id.in_(ids))
+        )
+        for tray_id, slot in slots:
+            self._used[("slot", tray_id, slot)] = "taken"
+
+    def _prefetch_cables(self, labels: list[str]) -> None:
+        rows = self.session.execute(
+            select(
+                Cable.id,
+                Cable.label,
+                Cable.units,
+                Cable.fibers_per_unit,
+                Cable.construction,
+                Cable.fiber_type_id,
+            ).where(Cable.label.in_(labels))
+        ).all()
+        for label in labels:
+            self._cables[label] = None
+        if not rows:
+            return
+        ids = [row[0] for row in rows]
+        stations = self._stations_of(ids)
+        for cable_id, label, units, per_unit, construction, fiber_type_id in rows:
+            info = CableInfo(
+                cable_id, label, units, per_unit, str(construction.value), fiber_type_id
+            )
+            info.stations = stations.get(cable_id, [])
+            self._cables[label] = info
+            self._strands[cable_id] = {}
+        strands = self.session.execute(
+            select(Strand.cable_id, Strand.number, Strand.id).where(Strand.cable_id.in_(ids))
+        )
+        for cable_id, number, strand_id in strands:
+            self._strands[cable_id][number] = strand_id
+        self._cable_usage_of(ids)
 
     # -- simple labels -------------------------------------------------------------------
     def structure(self, label: str) -> StructureRef | None:
@@ -276,6 +349,9 @@ class RecordLookup:
         return self._cables[label]
 
     def _stations(self, cable_id: int) -> list[StationInfo]:
+        return self._stations_of([cable_id]).get(cable_id, [])
+
+    def _stations_of(self, cable_ids: list[int]) -> dict[int, list[StationInfo]]:
         rows = self.session.execute(
             select(
                 Station.id,
@@ -286,13 +362,18 @@ class RecordLookup:
                 Station.mark_m,
                 Closure.label,
                 Panel.label,
+                Station.cable_id,
             )
             .outerjoin(Closure, Closure.id == Station.closure_id)
             .outerjoin(Panel, Panel.id == Station.panel_id)
-            .where(Station.cable_id == cable_id)
-            .order_by(Station.seq)
+            .where(Station.cable_id.in_(cable_ids))
+            .order_by(Station.cable_id, Station.seq)
         ).all()
-        return [StationInfo(r[0], r[1], r[2], r[3], r[4], r[5], r[6] or r[7]) for r in rows]
+        found: dict[int, list[StationInfo]] = {}
+        for r in rows:
+            info = StationInfo(r[0], r[1], r[2], r[3], r[4], r[5], r[6] or r[7])
+            found.setdefault(r[8], []).append(info)
+        return found
 
     def remember_cable(self, info: CableInfo) -> None:
         self._cables[info.label] = info
@@ -389,20 +470,31 @@ class RecordLookup:
         loader(token[1])
 
     def _cable_usage(self, cable_id: int) -> None:
+        self._cable_usage_of([cable_id])
+
+    def _cable_usage_of(self, cable_ids: list[int]) -> None:
+        """Which ends of these cables' strands are connected, and where they are cut."""
         rows = self.session.execute(
-            select(FiberEnd.strand_id, FiberEnd.station_id, FiberEnd.side, FiberEnd.splice_id)
+            select(
+                Strand.cable_id,
+                FiberEnd.strand_id,
+                FiberEnd.station_id,
+                FiberEnd.side,
+                FiberEnd.splice_id,
+            )
             .join(Strand, Strand.id == FiberEnd.strand_id)
-            .where(Strand.cable_id == cable_id)
+            .where(Strand.cable_id.in_(cable_ids))
         ).all()
-        for strand_id, station_id, side, splice_id in rows:
+        for cable_id, strand_id, station_id, side, splice_id in rows:
             what = "spliced" if splice_id is not None else "terminated on a port"
             self._used[("end", cable_id, strand_id, station_id, str(side))] = what
         cuts = self.session.execute(
             select(Cut.strand_id, Cut.station_id)
             .join(Strand, Strand.id == Cut.strand_id)
-            .where(Strand.cable_id == cable_id)
+            .where(Strand.cable_id.in_(cable_ids))
         ).all()
         self._cuts.update((r[0], r[1]) for r in cuts)
+        self._loaded_usage.update(("cable", cable_id) for cable_id in cable_ids)
 
     def _port_usage(self, port_id: int) -> None:
         if self.session.scalar(select(FiberEnd.id).where(FiberEnd.port_id == port_id)):
@@ -446,3 +538,12 @@ class RecordLookup:
     def remember_cut(self, cable_id: int, strand_id: int, station_id: int) -> None:
         self._load_once(("cable", cable_id), self._cable_usage)
         self._cuts.add((strand_id, station_id))
+
+
+# Labels or ids per IN list: well inside every database's limit on bound parameters.
+CHUNK = 500
+
+
+def _chunks(items: list[str]) -> Iterator[list[str]]:
+    for first in range(0, len(items), CHUNK):
+        yield items[first : first + CHUNK]

@@ -466,6 +466,10 @@ def record_splices(
     """Check every request, then write them all (unless a dry run or any problem)."""
     planner = _Planner(session)
     with collector_paused(), _sqlite_cache(session, len(requests)):
+        if len(requests) >= PREFETCH_REQUESTS:
+            planner.lookup.prefetch(
+                (r.closure for r in requests), (g.label for r in requests for g in (r.a, r.b))
+            )
         for n, request in enumerate(requests, start=1):
             planner.check(request)
             if progress is not None and n % PROGRESS_STEP == 0:
@@ -477,6 +481,9 @@ def record_splices(
     return planner.report
 
 
+# From this many requests the closures and cables they name are looked up together up front,
+# a few queries in all, instead of several queries for each as it first comes up.
+PREFETCH_REQUESTS = 50
 # Past this many splices a write is a bulk load, worth a bigger SQLite page cache.
 BULK_SPLICES = 5_000
 

@@ -14,6 +14,7 @@ Counted exactly as the interface document says, so two people get the same figur
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 from plantdb import catalogue
@@ -149,7 +150,9 @@ class LossCounter:
         return []
 
 
+@lru_cache(maxsize=256)
 def _sourced(value: catalogue.Sourced) -> Allowance:
+    # A long path asks for the same few catalogue values hundreds of times: made once each.
     return Allowance(value.value, f"catalogue: {value.source} ({value.grade})")
 
 

@@ -32,4 +32,8 @@ class RawSql:
             if sql not in self._converted:
                 self._converted[sql] = sql.replace("?", "%s")
             sql = self._converted[sql]
-        return list(self._raw.execute(sql, tuple(params)).fetchall())
+        if not isinstance(params, tuple):
+            params = tuple(params)
+        # Both drivers' fetchall gives a new list already.
+        rows: list[Any] = self._raw.execute(sql, params).fetchall()
+        return rows

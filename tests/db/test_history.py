@@ -17,6 +17,7 @@ from sqlalchemy import func, select, update
 
 from plantdb import audit
 from plantdb.audit import ChangeRow, acting_as, current_actor, record_changes
+from plantdb.bulk import COPY_ROWS
 from plantdb.db import Database, run_in_transaction
 from plantdb.errors import PlantError
 from plantdb.model import Cable, Change, ChangeAction, Circuit, Closure, Splice
@@ -254,23 +255,26 @@ def test_a_synthetic_plant_is_one_summary_row(plant: PlantCli, database: Databas
     assert row.after is not None and row.after["seed"] == 2
 
 
+@pytest.mark.parametrize("count", [2, COPY_ROWS], ids=["few", "bulk"])
 def test_the_portable_statement_writes_the_same_rows(
-    database: Database, monkeypatch: pytest.MonkeyPatch
+    database: Database, monkeypatch: pytest.MonkeyPatch, count: int
 ) -> None:
-    """A driver whose parameter style plantdb does not write by hand gets the ordinary insert."""
+    """A driver plantdb does not write to straight gets the ordinary insert, and the rows
+    come out the same (a bulk write is COPY on PostgreSQL)."""
     rows = [
         ChangeRow(ChangeAction.INSERT, "closure", 7, "closure X-1", None, {"label": "X-1"}),
         ChangeRow(ChangeAction.DELETE, "splice", 9, "X-1 tray 1 slot 1", {"slot": 1}, None),
-    ]
+    ] * (count // 2)
     at = dt.datetime(2026, 3, 4, 5, 6, 7)
     run_in_transaction(database, lambda s: record_changes(s, rows, at=at))
-    monkeypatch.setattr(audit, "_INSERTS", {})
+    monkeypatch.setattr(audit, "BULK_DIALECTS", ())
     run_in_transaction(database, lambda s: record_changes(s, rows, at=at))
     written = [
         (r.at, r.actor, r.action, r.entity, r.entity_id, r.label, r.before, r.after)
         for r in history(database)
     ]
-    assert written[:2] == written[2:]
+    assert len(written) == 2 * len(rows)
+    assert written[: len(rows)] == written[len(rows) :]
     assert written[0] == (
         at, current_actor(), ChangeAction.INSERT, "closure", 7, "closure X-1", None,
         {"label": "X-1"},

@@ -9,6 +9,7 @@ from __future__ import annotations
 import zipfile
 from pathlib import Path
 from typing import Any
+from unittest.mock import patch
 
 import pytest
 from hypothesis import HealthCheck, event, given, settings
@@ -16,6 +17,7 @@ from hypothesis import strategies as st
 from openpyxl import Workbook
 
 from plantdb.db import Database, run_in_transaction
+from plantdb.records import splicing
 from plantdb.records.bundle import dump_bundle, load_bundle
 from plantdb.records.sheet_files import COLUMNS, read_sheet
 from plantdb.records.sheet_import import import_sheet
@@ -242,3 +244,23 @@ def test_any_sheet_is_imported_whole_or_refused_whole(
     else:
         assert len(after) == len(before) + report.added
         assert all(s in after for s in before)
+
+
+@settings(
+    max_examples=25,
+    deadline=None,
+    suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow],
+)
+@given(rows=st.lists(st.one_of(_ROW, _LIKELY_ROW), min_size=1, max_size=8))
+def test_looking_everything_up_up_front_changes_no_answer(
+    yard: Database, tmp_path: Path, rows: list[list[str]]
+) -> None:
+    """A big sheet's closures and cables are looked up together before the rows are checked
+    (`PREFETCH_REQUESTS`); the report must be exactly the one the lazy lookups give."""
+    sheet = read_sheet(write_csv(tmp_path / "q.csv", rows))
+
+    def report(threshold: int) -> SpliceReport:
+        with patch.object(splicing, "PREFETCH_REQUESTS", threshold):
+            return run_in_transaction(yard, lambda s: import_sheet(s, sheet, dry_run=True))
+
+    assert report(1) == report(10**9)

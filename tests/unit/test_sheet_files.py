@@ -337,6 +337,16 @@ def test_the_reported_problems_of_a_bad_row() -> None:
     ]
 
 
+def test_a_digit_that_is_not_a_decimal_is_not_a_tray_number() -> None:
+    # "²" and "①" are digits to str.isdigit, but int() refuses them: a problem, not a crash.
+    sheet = csv_sheet(HEADER, "SC-1,²,1,C-A,1,,C-B,2,,,,,", "SC-1,1,①,C-A,1,,C-B,2,,,,,")
+    _, problems = requests_from_sheet(sheet)
+    assert problems == [
+        "line 2: tray '²' is not a whole number",
+        "line 3: slot '①' is not a whole number",
+    ]
+
+
 def test_a_decimal_comma_gets_a_hint() -> None:
     sheet = read_csv_sheet(
         (HEADER.replace(",", ";") + "\n" + ROW.replace(",", ";").replace("0.04", "0,04")).encode()
