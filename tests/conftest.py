@@ -11,6 +11,7 @@ from __future__ import annotations
 import os
 import shutil
 from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -57,25 +58,26 @@ def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return path
 
 
-def _worker_schema() -> str:
-    # The process id keeps two test runs on one server (two people, two checkouts) apart.
-    return f"plantdb_test_{os.environ.get('PYTEST_XDIST_WORKER', 'main')}_{os.getpid()}"
+@contextmanager
+def migrated_postgres_schema(prefix: str) -> Iterator[str]:
+    """The URL of a PostgreSQL schema of its own, migrated to head, dropped afterwards.
 
-
-@pytest.fixture(scope="session")
-def postgres_schema_url() -> Iterator[str]:
-    """A PostgreSQL schema of this test worker's own, migrated to head once."""
+    Named `prefix`, the test worker and the process id, which keeps two test runs on one
+    server (two people, two checkouts) apart. Skipped without a server, failed under
+    PLANTDB_REQUIRE_POSTGRES=1.
+    """
     if not POSTGRES_URL:
         if REQUIRE_POSTGRES:
             pytest.fail("PLANTDB_REQUIRE_POSTGRES=1 but PLANTDB_TEST_POSTGRES_URL is not set")
         pytest.skip(NO_POSTGRES_REASON)
-    schema = _worker_schema()
+    schema = f"{prefix}_{os.environ.get('PYTEST_XDIST_WORKER', 'main')}_{os.getpid()}"
     admin = create_engine(POSTGRES_URL)
     try:
         with admin.begin() as connection:
             connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
             connection.execute(text(f'CREATE SCHEMA "{schema}"'))
     except Exception as exc:  # noqa: BLE001 - any failure to reach the server
+        admin.dispose()
         message = f"PostgreSQL at {POSTGRES_URL} is not usable: {exc}"
         if REQUIRE_POSTGRES:
             pytest.fail(message)
@@ -85,10 +87,19 @@ def postgres_schema_url() -> Iterator[str]:
     database = Database(rendered)
     upgrade_schema(database.engine)
     database.dispose()
-    yield rendered
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-    admin.dispose()
+    try:
+        yield rendered
+    finally:
+        with admin.begin() as connection:
+            connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
+        admin.dispose()
+
+
+@pytest.fixture(scope="session")
+def postgres_schema_url() -> Iterator[str]:
+    """A PostgreSQL schema of this test worker's own, migrated to head once."""
+    with migrated_postgres_schema("plantdb_test") as url:
+        yield url
 
 
 def _empty_postgres(url: str) -> None:

@@ -6,23 +6,22 @@ the bundle written, loaded into a fresh database, dumped again.
 from __future__ import annotations
 
 import json
-import os
 import sqlite3
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import create_engine, select, text
+from sqlalchemy import select
 from sqlalchemy.engine import make_url
 
 from plantdb.backup import backup_database
-from plantdb.db import Database, run_in_transaction, upgrade_schema
+from plantdb.db import Database, run_in_transaction
 from plantdb.errors import PlantError
 from plantdb.model import Change, Structure, StructureKind
 from plantdb.records.bundle import dump_bundle, load_bundle, read_bundle_file
 from plantdb.records.circuit_status import set_circuit_status
-from tests.conftest import NO_POSTGRES_REASON, POSTGRES_URL, REQUIRE_POSTGRES, PlantCli
+from tests.conftest import PlantCli, migrated_postgres_schema
 from tests.networks import ashgrove
 
 
@@ -136,25 +135,8 @@ def test_a_damaged_copy_is_not_kept(
 @pytest.fixture
 def fresh_postgres() -> Iterator[str]:
     """An initialised, empty PostgreSQL schema to restore into."""
-    if not POSTGRES_URL:
-        if REQUIRE_POSTGRES:
-            pytest.fail("PLANTDB_REQUIRE_POSTGRES=1 but PLANTDB_TEST_POSTGRES_URL is not set")
-        pytest.skip(NO_POSTGRES_REASON)
-    worker = os.environ.get("PYTEST_XDIST_WORKER", "main")
-    schema = f"plantdb_restore_{worker}_{os.getpid()}"
-    admin = create_engine(POSTGRES_URL)
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-        connection.execute(text(f'CREATE SCHEMA "{schema}"'))
-    url = make_url(POSTGRES_URL).update_query_dict({"options": f"-csearch_path={schema}"})
-    rendered = url.render_as_string(hide_password=False)
-    database = Database(rendered)
-    upgrade_schema(database.engine)
-    database.dispose()
-    yield rendered
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-    admin.dispose()
+    with migrated_postgres_schema("plantdb_restore") as url:
+        yield url
 
 
 @pytest.mark.postgres

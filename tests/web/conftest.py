@@ -3,7 +3,6 @@ and on small hand-built networks (tests that write get a fresh database each).""
 
 from __future__ import annotations
 
-import os
 import re
 import shutil
 from collections.abc import Callable, Iterator
@@ -13,14 +12,12 @@ from typing import Any
 import pytest
 from flask import Flask
 from flask.testing import FlaskClient
-from sqlalchemy import create_engine, text
-from sqlalchemy.engine import make_url
 
-from plantdb.db import Database, run_in_transaction, upgrade_schema
+from plantdb.db import Database, run_in_transaction
 from plantdb.people import add_person, add_token
 from plantdb.records.bundle import load_bundle
 from seed_data.demo_town import build_demo_bundle
-from tests.conftest import BACKENDS, NO_POSTGRES_REASON, POSTGRES_URL, REQUIRE_POSTGRES
+from tests.conftest import BACKENDS, migrated_postgres_schema
 from tests.networks import Bundle
 from webui import create_app
 
@@ -44,26 +41,9 @@ def demo_sqlite(tmp_path_factory: pytest.TempPathFactory, sqlite_template: Path)
 
 
 def _demo_postgres() -> Iterator[str]:
-    if not POSTGRES_URL:
-        if REQUIRE_POSTGRES:
-            pytest.fail("PLANTDB_REQUIRE_POSTGRES=1 but PLANTDB_TEST_POSTGRES_URL is not set")
-        pytest.skip(NO_POSTGRES_REASON)
-    worker = os.environ.get("PYTEST_XDIST_WORKER", "main")
-    schema = f"plantdb_webdemo_{worker}_{os.getpid()}"
-    admin = create_engine(POSTGRES_URL)
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-        connection.execute(text(f'CREATE SCHEMA "{schema}"'))
-    url = make_url(POSTGRES_URL).update_query_dict({"options": f"-csearch_path={schema}"})
-    rendered = url.render_as_string(hide_password=False)
-    database = Database(rendered)
-    upgrade_schema(database.engine)
-    database.dispose()
-    load_into(rendered, build_demo_bundle())
-    yield rendered
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-    admin.dispose()
+    with migrated_postgres_schema("plantdb_webdemo") as url:
+        load_into(url, build_demo_bundle())
+        yield url
 
 
 @pytest.fixture(scope="session")

@@ -8,7 +8,6 @@ generates), with a bounded, derandomized number of examples so it stays under a 
 
 from __future__ import annotations
 
-import os
 import shutil
 from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
@@ -21,40 +20,18 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from schemathesis import GenerationMode
 from schemathesis.specs.openapi.checks import positive_data_acceptance
-from sqlalchemy import create_engine, text
-from sqlalchemy.engine import make_url
 
-from plantdb.db import Database, upgrade_schema
 from seed_data.demo_town import build_demo_bundle
-from tests.conftest import BACKENDS, NO_POSTGRES_REASON, POSTGRES_URL, REQUIRE_POSTGRES
+from tests.conftest import BACKENDS, migrated_postgres_schema
 from tests.web.conftest import load_into, new_app
 from webui.openapi import openapi_document
 
 
 def _writable_demo_postgres() -> Iterator[str]:
     """A PostgreSQL schema of this module's own holding the demo town (written to)."""
-    if not POSTGRES_URL:
-        if REQUIRE_POSTGRES:
-            pytest.fail("PLANTDB_REQUIRE_POSTGRES=1 but PLANTDB_TEST_POSTGRES_URL is not set")
-        pytest.skip(NO_POSTGRES_REASON)
-    worker = os.environ.get("PYTEST_XDIST_WORKER", "main")
-    schema = f"plantdb_schemathesis_{worker}_{os.getpid()}"
-    admin = create_engine(POSTGRES_URL)
-    with admin.begin() as connection:
-        connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-        connection.execute(text(f'CREATE SCHEMA "{schema}"'))
-    url = make_url(POSTGRES_URL).update_query_dict({"options": f"-csearch_path={schema}"})
-    rendered = url.render_as_string(hide_password=False)
-    database = Database(rendered)
-    upgrade_schema(database.engine)
-    database.dispose()
-    load_into(rendered, build_demo_bundle())
-    try:
-        yield rendered
-    finally:
-        with admin.begin() as connection:
-            connection.execute(text(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE'))
-        admin.dispose()
+    with migrated_postgres_schema("plantdb_schemathesis") as url:
+        load_into(url, build_demo_bundle())
+        yield url
 
 
 @pytest.fixture(scope="module", params=BACKENDS)
