@@ -8,7 +8,6 @@ per-row parameter handling, would dominate the time. Rows are plain tuples in th
 
 from __future__ import annotations
 
-import datetime as dt
 import gc
 import json
 from collections.abc import Callable, Iterable, Iterator, Sequence
@@ -74,9 +73,12 @@ class BulkWriter:
             if (table, name) in JSON_COLUMNS:
                 found[i] = json.dumps
             elif not self.postgres and isinstance(known.c[name].type, Date | DateTime):
-                process = known.c[name].type.bind_processor(self.connection.dialect)
+                # The dialect's own implementation of the type: the generic type has no
+                # processor, and the value would reach sqlite3's adapters (another format).
+                dialect = self.connection.dialect
+                process = known.c[name].type.dialect_impl(dialect).bind_processor(dialect)
                 if process is not None:
-                    found[i] = _keep_none(process)
+                    found[i] = process
         return found
 
     def _copy(self, table: str, columns: Sequence[str], rows: list[Sequence[Any]]) -> None:
@@ -110,13 +112,6 @@ class BulkWriter:
 def _names(columns: Sequence[str]) -> str:
     # Quoted: a column may be named by an SQL keyword (the history's "before" and "after").
     return ", ".join(f'"{name}"' for name in columns)
-
-
-def _keep_none(process: Callable[[Any], Any]) -> Callable[[Any], Any]:
-    def convert(value: dt.date | dt.datetime | None) -> Any:
-        return None if value is None else process(value)
-
-    return convert
 
 
 @contextmanager

@@ -484,19 +484,19 @@ def record_splices(
 # From this many requests the closures and cables they name are looked up together up front,
 # a few queries in all, instead of several queries for each as it first comes up.
 PREFETCH_REQUESTS = 50
-# Past this many splices a write is a bulk load, worth a bigger SQLite page cache.
-BULK_SPLICES = 5_000
+# From this many requests a splicing call is bulk work, worth a bigger SQLite page cache.
+BULK_REQUESTS = 5_000
 
 
 @contextmanager
-def _sqlite_cache(session: Session, splices: int) -> Iterator[None]:
-    """On SQLite, a large page cache for a bulk write, put back as it was afterwards.
+def _sqlite_cache(session: Session, requests: int) -> Iterator[None]:
+    """On SQLite, a large page cache for a bulk check and write, put back afterwards.
 
-    The default cache (2 MB) no longer holds the indexes of a big record, and each inserted
-    row then costs page reads; the same remedy as the synthetic-city loader's.
+    The default cache (2 MB) no longer holds the indexes of a big record, and each row read
+    or inserted then costs page reads; the same remedy as the synthetic-city loader's.
     """
     connection = session.connection()
-    if connection.dialect.name != "sqlite" or splices < BULK_SPLICES:
+    if connection.dialect.name != "sqlite" or requests < BULK_REQUESTS:
         yield
         return
     before = connection.exec_driver_sql("PRAGMA cache_size").scalar()

@@ -506,6 +506,9 @@ def test_only_a_unique_violation_is_a_lost_race(probe: Database) -> None:
     assert counters(probe) == {"a": 0, "b": 0}
 
 
+SETTING = ("key", "value")
+
+
 @pytest.mark.parametrize("rows", [3, COPY_ROWS + 5], ids=["insert", "copy"])
 def test_a_bulk_write_meeting_a_unique_row_is_a_lost_race(database: Database, rows: int) -> None:
     """A splice-sheet import writes its rows in bulk (COPY on PostgreSQL from COPY_ROWS rows):
@@ -529,6 +532,3 @@ def test_a_bulk_write_meeting_a_unique_row_is_a_lost_race(database: Database, ro
             run_in_transaction(database, raced, attempts=2)
     with database.read() as session:  # nothing of the refused batch was written
         assert session.scalars(select(Setting.value)).all() == ["theirs"]
-
-
-SETTING = ("key", "value")

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import func, select, update
+from sqlalchemy import func, select, text, update
 
 from plantdb import audit
 from plantdb.audit import ChangeRow, acting_as, current_actor, record_changes
@@ -279,6 +279,11 @@ def test_the_portable_statement_writes_the_same_rows(
         at, current_actor(), ChangeAction.INSERT, "closure", 7, "closure X-1", None,
         {"label": "X-1"},
     )  # fmt: skip
+    # Stored alike too, not only read back alike: on SQLite the time is text, compared as
+    # text by `--since`, so the straight path must write it in SQLAlchemy's own format.
+    with database.read() as session:
+        stored = session.execute(text("SELECT DISTINCT CAST(at AS TEXT) FROM change")).all()
+    assert len(stored) == 1, stored
 
 
 # -- plantdb history -------------------------------------------------------------------------
