@@ -106,7 +106,11 @@ class BulkWriter:
                 # The table name comes from the model, never from outside.
                 sql = "SELECT setval(pg_get_serial_sequence(:name, 'id'), (SELECT max(id) FROM "
                 self.connection.execute(text(sql + table.name + "))"), {"name": table.name})
-        self.connection.exec_driver_sql("ANALYZE")
+        # Only the tables written, in this schema: a bare ANALYZE would visit every table of
+        # the database, other schemas' included, and queue behind (or deadlock with) whatever
+        # else holds their locks. One table per statement, as SQLite's ANALYZE takes one name.
+        for table in sorted(self.counts):
+            self.connection.exec_driver_sql(f'ANALYZE "{table}"')
 
 
 def _names(columns: Sequence[str]) -> str:

@@ -105,9 +105,11 @@ def postgres_schema_url() -> Iterator[str]:
 def _empty_postgres(url: str) -> None:
     engine = create_engine(url)
     tables = ", ".join(f'"{t.name}"' for t in Base.metadata.sorted_tables)
-    with engine.begin() as connection:
-        connection.execute(text(f"TRUNCATE {tables} RESTART IDENTITY CASCADE"))
-    engine.dispose()
+    try:
+        with engine.begin() as connection:
+            connection.execute(text(f"TRUNCATE {tables} RESTART IDENTITY CASCADE"))
+    finally:
+        engine.dispose()
 
 
 @pytest.fixture(params=BACKENDS)
