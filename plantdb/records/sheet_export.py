@@ -143,6 +143,10 @@ def export_splice_sheet(session: Session, label: str, path: str | Path) -> dict[
         raise PlantError(f"{file.name}: write the splice sheet to a .csv, .xlsx or .html file")
     sheet = closure_sheet(session, label)
     temporary = file.with_name(f".{file.name}.partial")
-    write(sheet, temporary)
-    temporary.replace(file)  # a reader never sees half a sheet
+    try:
+        write(sheet, temporary)
+        temporary.replace(file)  # a reader never sees half a sheet
+    except BaseException:
+        temporary.unlink(missing_ok=True)  # a failed write leaves no half sheet behind
+        raise
     return {"closure": label, "written": str(file), "splices": len(sheet.splices)}

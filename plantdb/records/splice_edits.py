@@ -133,7 +133,8 @@ def _lost_race(closure: PlaceInfo, what: str) -> ConflictError:
 def _describe(
     closure: PlaceInfo, splice: RecordedSplice, tray: int, slot: int
 ) -> dict[str, object]:
-    return {
+    """The splice as reported, with which way each mid-span piece runs (as `splicing`)."""
+    item: dict[str, object] = {
         "closure": closure.label,
         "a": splice.a.address,
         "b": splice.b.address,
@@ -142,6 +143,10 @@ def _describe(
         "method": splice.method,
         "loss_db": splice.loss_db,
     }
+    for key, end in (("a_toward", splice.a), ("b_toward", splice.b)):
+        if end.toward is not None:
+            item[key] = end.toward
+    return item
 
 
 def remove_splices(

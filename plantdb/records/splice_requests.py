@@ -65,6 +65,9 @@ class SpliceRequest:
     spliced_on: dt.date | None = None
     spliced_by: str | None = None
     where: str = ""  # "line 7" on a sheet: the prefix of every message about this request
+    # Set when the request's own cells had problems (an unknown method, a bad date...),
+    # reported by whoever read them: check it against the record, but plan nothing for it.
+    check_only: bool = False
 
 
 @dataclass

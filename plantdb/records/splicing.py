@@ -9,6 +9,7 @@ when the report lists problems nothing was written and the caller refuses the wh
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -75,6 +76,11 @@ _T = TypeVar("_T")
 # Plain strings, compared once per fiber: an enum's .value is a descriptor call each time.
 _CENTRAL_CORE = ConstructionKind.CENTRAL_CORE.value
 _RIBBON = ConstructionKind.RIBBON.value
+# Keys of a reported splice that are not part of the splice as a bundle item (its history).
+_REPORT_ONLY = ("a_toward", "b_toward")
+# The numbers of a message that name a fiber: a strand or leg after an address's colon, and a
+# tray slot. A row's messages alike but for these are one problem said once (`_grouped`).
+_FIBER_NUMBER = re.compile(r"(?<=:)\d+|(?<=\bslot )\d+")
 
 
 @dataclass
@@ -84,6 +90,14 @@ class _Group:
     ends: list[EndRef]
     cable: CableInfo | None
     whole_unit: bool = False
+
+    @property
+    def toward(self) -> str | None:
+        """Where the glass of a mid-span piece runs: the label at that end of the cable."""
+        first = self.ends[0]
+        if self.cable is None or not first.mid_span or first.side is None:
+            return None
+        return self.cable.stations[0 if first.side == "A" else -1].place
 
 
 @dataclass
@@ -99,6 +113,7 @@ class _Planned:
     b: EndRef
     method: SpliceMethod
     request: SpliceRequest
+    toward: tuple[str | None, str | None] = (None, None)  # of the a and b ends (mid-span)
 
     def row(self) -> tuple[Any, ...]:
         """The splice row, in `SPLICE_COLUMNS` order."""
@@ -115,8 +130,10 @@ class _Planned:
         )
 
     def describe(self) -> dict[str, Any]:
+        """The splice as reported: its bundle item, and at a mid-span access which way each
+        cut piece runs (`a_toward`, `b_toward`: the label at that end of its cable)."""
         on = self.request.spliced_on
-        return {
+        item = {
             "closure": self.closure.label,
             "a": self.a.address,
             "b": self.b.address,
@@ -127,6 +144,19 @@ class _Planned:
             "spliced_on": on.isoformat() if on else None,
             "spliced_by": self.request.spliced_by,
         }
+        a_toward, b_toward = self.toward
+        if a_toward is not None:
+            item["a_toward"] = a_toward
+        if b_toward is not None:
+            item["b_toward"] = b_toward
+        return item
+
+
+def _bundle_item(item: dict[str, Any]) -> dict[str, Any]:
+    """A reported splice as the bundle item its history keeps (no report-only keys)."""
+    if not any(key in item for key in _REPORT_ONLY):
+        return item
+    return {key: value for key, value in item.items() if key not in _REPORT_ONLY}
 
 
 def _method(text: str | None) -> SpliceMethod | None:
@@ -138,12 +168,28 @@ def _method(text: str | None) -> SpliceMethod | None:
         raise PlantError(f"method {text!r} is not one of {', '.join(METHODS)}") from None
 
 
-def _check_loss(loss: float | None) -> None:
+def _loss_problem(loss: float | None) -> str | None:
     if loss is not None and not 0 <= loss <= ABSURD_SPLICE_LOSS_DB:
-        raise PlantError(
+        return (
             f"loss_db {loss:g} dB is not a splice loss (0 to {ABSURD_SPLICE_LOSS_DB:g} dB;"
             " above that it is a typo or a misread meter)"
         )
+    return None
+
+
+def _stated_values(request: SpliceRequest) -> tuple[SpliceMethod | None, list[str]]:
+    """The method a request states (None when blank or unreadable), and the problems of its
+    method and loss; neither stops the request being checked against the record."""
+    problems = []
+    try:
+        method = _method(request.method)
+    except PlantError as exc:
+        method = None
+        problems.append(exc.message)
+    loss = _loss_problem(request.loss_db)
+    if loss is not None:
+        problems.append(loss)
+    return method, problems
 
 
 class _Planner:
@@ -162,43 +208,67 @@ class _Planner:
         self.splitter_ids: set[int] = set()
 
     def check(self, request: SpliceRequest) -> None:
+        """Check one request; a bad method or loss is reported with whatever else is wrong.
+
+        A request with problems of its own (or `check_only`) is still checked against the
+        record and claims its ends and slots, so a later request reusing them is told; it is
+        planned, counted and warned about no further.
+        """
+        stated, problems = _stated_values(request)
         try:
-            closure, a, b, method, tray_id, capacity = self._prepare(request)
+            closure, a, b, tray_id, capacity = self._prepare(request)
         except PlantError as exc:
-            self.report.problems.append(at(request.where, exc.message))
+            self._refuse(request, [*problems, exc.message])
             return
+        method = stated if stated is not None else _default_method(a, b)
+        check_only = request.check_only or bool(problems)
         warnings = RowWarnings(request, self._modes_of(a.cable, b.cable))
+        toward = (a.toward, b.toward)
         planned = len(self.planned)
+        fiber_problems: list[str] = []
         for i, (end_a, end_b) in enumerate(zip(a.ends, b.ends, strict=True)):
             slot = request.slot + i
-            problems = self._pair_problems(closure, request, end_a, end_b, tray_id, slot)
-            if problems is None:
-                self.report.already_recorded += 1
+            found = self._pair_problems(closure, request, stated, end_a, end_b, tray_id, slot)
+            if found is None:
+                if not check_only:  # a row with bad cells is not "recorded identically"
+                    self.report.already_recorded += 1
                 continue
-            if problems:
-                self.report.problems.extend(at(request.where, p) for p in problems)
+            if found:
+                fiber_problems.extend(found)
                 continue
             self._claim(request, end_a.key, end_b.key, ("slot", tray_id, slot))
+            if check_only:
+                continue
             warnings.pair(end_a, a.cable, end_b, b.cable)
             self.planned.append(
                 _Planned(
-                    closure, request.tray, tray_id, capacity, slot, end_a, end_b, method, request
+                    closure,
+                    request.tray,
+                    tray_id,
+                    capacity,
+                    slot,
+                    end_a,
+                    end_b,
+                    method,
+                    request,
+                    toward,
                 )
             )
+        if problems or fiber_problems:
+            self._refuse(request, problems + _grouped(fiber_problems))
         if len(self.planned) > planned:
             self.report.warnings.extend(warnings.messages())
 
-    def _prepare(
-        self, request: SpliceRequest
-    ) -> tuple[PlaceInfo, _Group, _Group, SpliceMethod, int, int]:
+    def _refuse(self, request: SpliceRequest, problems: list[str]) -> None:
+        self.report.problems.extend(at(request.where, p) for p in problems)
+
+    def _prepare(self, request: SpliceRequest) -> tuple[PlaceInfo, _Group, _Group, int, int]:
         closure = self.lookup.closure(request.closure)
         if closure is None:
             raise PlantError(f"closure: no closure is labelled {request.closure}")
         if closure.id not in self._closures:
             self._closures[closure.id] = closure
             self.lookup.load_closure_slots(closure.id)
-        method = _method(request.method)
-        _check_loss(request.loss_db)
         a = self._group(request.a, closure)
         b = self._group(request.b, closure)
         if len(a.ends) != len(b.ends):
@@ -207,10 +277,7 @@ class _Planner:
                 " a range must be spliced to a range of the same size"
             )
         tray_id, capacity = self._tray(closure, request, len(a.ends))
-        if method is None:
-            ribbons = a.whole_unit and b.whole_unit and _ribbon(a.cable) and _ribbon(b.cable)
-            method = SpliceMethod.MASS_FUSION if ribbons else SpliceMethod.FUSION
-        return closure, a, b, method, tray_id, capacity
+        return closure, a, b, tray_id, capacity
 
     def _group(self, group: EndGroup, closure: PlaceInfo) -> _Group:
         side = group.side.upper() if group.side else None
@@ -288,6 +355,7 @@ class _Planner:
         self,
         closure: PlaceInfo,
         request: SpliceRequest,
+        stated: SpliceMethod | None,
         a: EndRef,
         b: EndRef,
         tray_id: int,
@@ -313,12 +381,15 @@ class _Planner:
         held = [used_by(a.key), used_by(b.key), used_by(slot_key)]
         if not (held[0] or held[1] or held[2]):
             return []
-        return self._against_record(closure, request, a, b, slot_key, place.format(slot), held)
+        return self._against_record(
+            closure, request, stated, a, b, slot_key, place.format(slot), held
+        )
 
     def _against_record(
         self,
         closure: PlaceInfo,
         request: SpliceRequest,
+        stated: SpliceMethod | None,
         a: EndRef,
         b: EndRef,
         slot_key: tuple[object, ...],
@@ -333,7 +404,7 @@ class _Planner:
                     f"{existing.description} is recorded in tray {existing.tray} slot"
                     f" {existing.slot}, not in {place}"
                 ]
-            mismatch = _mismatch(existing, request)
+            mismatch = _mismatch(existing, request, stated)
             if mismatch:
                 return [f"{existing.description} in {place} is recorded {mismatch}"]
             self._claim(request, a.key, b.key, slot_key)
@@ -402,7 +473,10 @@ class _Planner:
             )
             history = cuts_added(self.session, [(c.id, c.label, end) for c, end in cuts])
             described = zip(splice_ids, self.planned, self.report.splices, strict=True)
-            history += [splice_added(i, p.closure.id, p.a, p.b, item) for i, p, item in described]
+            history += [
+                splice_added(i, p.closure.id, p.a, p.b, _bundle_item(item))
+                for i, p, item in described
+            ]
             record_changes(self.session, history)
         self.report.added = len(splice_ids)
         ends = [end for p in self.planned for end in (p.a, p.b)]
@@ -444,16 +518,76 @@ def _ribbon(cable: CableInfo | None) -> bool:
     return cable is not None and cable.construction == _RIBBON
 
 
-def _mismatch(existing: RecordedSplice, request: SpliceRequest) -> str:
-    """How a re-entered splice differs from the record ("" when compatible)."""
-    method = _method(request.method)
+def _default_method(a: _Group, b: _Group) -> SpliceMethod:
+    """Fusion, except a whole ribbon to a whole ribbon: mass fusion."""
+    ribbons = a.whole_unit and b.whole_unit and _ribbon(a.cable) and _ribbon(b.cable)
+    return SpliceMethod.MASS_FUSION if ribbons else SpliceMethod.FUSION
+
+
+def _mismatch(existing: RecordedSplice, request: SpliceRequest, method: SpliceMethod | None) -> str:
+    """How a re-entered splice differs from the record ("" when it states nothing different).
+
+    A value the request leaves blank states nothing and matches whatever is recorded; every
+    stated value that differs (method, loss, date, splicer) is named, recorded value first.
+    """
+    differences = []
     if method is not None and method.value != existing.method:
-        return f"as {existing.method}, not {method.value}"
+        differences.append(f"as {existing.method}, not {method.value}")
     loss = request.loss_db
     if loss is not None and (existing.loss_db is None or abs(existing.loss_db - loss) > 1e-9):
         recorded = "no loss" if existing.loss_db is None else f"loss {existing.loss_db:g} dB"
-        return f"with {recorded}, not {loss:g} dB"
-    return ""
+        differences.append(f"with {recorded}, not {loss:g} dB")
+    on = request.spliced_on
+    if on is not None and on != existing.spliced_on:
+        was = existing.spliced_on
+        when = f"spliced on {was.isoformat()}" if was else "with no splicing date"
+        differences.append(f"{when}, not {on.isoformat()}")
+    by = request.spliced_by
+    if by and by != existing.spliced_by:
+        who = f"spliced by {existing.spliced_by!r}" if existing.spliced_by else "with no splicer"
+        differences.append(f"{who}, not {by!r}")
+    return "; ".join(differences)
+
+
+def _grouped(problems: list[str]) -> list[str]:
+    """A row's problems, one line per kind however many fibers share it.
+
+    Messages alike but for the numbers naming fibers (strands after an address's colon, tray
+    slots) become one naming the runs: twelve "C-A:13 to C-B:1 in tray 1 slot 1 ..." lines
+    read "C-A:13-24 to C-B:1-12 in tray 1 slots 1-12 ...". Fully equal messages become one.
+    """
+    if len(problems) < 2:
+        return problems
+    groups: dict[tuple[str, ...], list[list[int]]] = {}
+    for problem in problems:
+        shape = tuple(_FIBER_NUMBER.split(problem))
+        numbers = [int(n) for n in _FIBER_NUMBER.findall(problem)]
+        groups.setdefault(shape, []).append(numbers)
+    return [_merged(shape, rows) for shape, rows in groups.items()]
+
+
+def _merged(shape: tuple[str, ...], rows: list[list[int]]) -> str:
+    """One message of a shape (its text between fiber numbers) for every row of numbers."""
+    out = [shape[0]]
+    for part, values in zip(shape[1:], zip(*rows, strict=True), strict=True):
+        text = _runs(values)
+        if out[-1].endswith("slot ") and not text.isdigit():
+            out[-1] = out[-1][:-1] + "s "  # "slots 1-12"
+        out.extend((text, part))
+    return "".join(out)
+
+
+def _runs(values: tuple[int, ...]) -> str:
+    """Numbers as runs, in their order: (5, 5) "5"; (13, ..., 24) "13-24"; (1, 2, 3, 7) "1-3, 7"."""
+    if all(v == values[0] for v in values):
+        return str(values[0])
+    runs: list[list[int]] = []
+    for value in values:
+        if runs and value == runs[-1][-1] + 1:
+            runs[-1].append(value)
+        else:
+            runs.append([value])
+    return ", ".join(str(r[0]) if len(r) == 1 else f"{r[0]}-{r[-1]}" for r in runs)
 
 
 def record_splices(

@@ -12,6 +12,7 @@ from openpyxl import load_workbook
 
 from plantdb.colours import TIA_598
 from plantdb.db import Database, run_in_transaction
+from plantdb.records import sheet_export
 from plantdb.records.bundle import dump_bundle, load_bundle
 from plantdb.records.print_sheet import splice_sheet_html
 from plantdb.records.sheet_export import export_splice_sheet
@@ -132,6 +133,26 @@ def test_print_sheet_escapes_every_label(yard: Database) -> None:
         page = splice_sheet_html(session, "LC-1")
     assert "<b>Larkspur</b>" not in page
     assert "&lt;b&gt;Larkspur&lt;/b&gt; &amp; crew" in page
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".xlsx"])
+def test_a_failed_write_leaves_no_partial_file_and_the_old_sheet_whole(
+    yard: Database, tmp_path: Path, monkeypatch: pytest.MonkeyPatch, suffix: str
+) -> None:
+    out = tmp_path / "out"
+    out.mkdir()
+    target = out / f"lc1{suffix}"
+    target.write_bytes(b"the sheet exported yesterday")
+
+    def fails_half_way(sheet: Any, path: Path) -> None:
+        path.write_bytes(b"half a sheet")
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(sheet_export, f"write_{suffix[1:]}", fails_half_way)
+    with pytest.raises(OSError, match="No space left"):
+        export(yard, target)
+    assert sorted(p.name for p in out.iterdir()) == [target.name]
+    assert target.read_bytes() == b"the sheet exported yesterday"
 
 
 def test_export_command_writes_each_kind_of_file(

@@ -176,6 +176,16 @@ def test_refuses_a_negative_or_absurd_loss(yard: Database, loss: float) -> None:
     assert problem.startswith(f"loss_db {loss:g} dB is not a splice loss (0 to 5 dB")
 
 
+def test_a_loss_of_exactly_5_db_is_accepted(yard: Database) -> None:
+    # Only a loss over 5 dB is refused as absurd; 5 dB itself is recorded, and warned about
+    # as above the 0.3 dB splice allowance of ANSI/TIA-568.3-D (value from memory).
+    report = splice(yard, request("C-A:3", "C-B:3", loss_db=5.0))
+    assert report.problems == [] and report.added == 1
+    assert recorded(yard)[-1]["loss_db"] == 5.0
+    (warning,) = report.warnings
+    assert warning.startswith("loss 5 dB is above the 0.3 dB splice allowance")
+
+
 def test_refuses_a_mid_span_strand_without_a_side_naming_both_pieces(yard: Database) -> None:
     (problem,) = refused(yard, request("C-T:8", "C-B:8"))
     assert "C-T:8/A (toward LK-P1) or C-T:8/B (toward LK-P3)" in problem
@@ -319,6 +329,28 @@ def test_side_options_and_json_report(yard: Database, plant: PlantCli) -> None:
     )  # fmt: skip
     assert document["added"] == 1 and document["cuts"] == 1
     assert document["splices"][0]["a"] == "C-T:10/B"
+    # C-T runs LK-P1 (its A end) -> LC-1 -> LC-2 -> LK-P3 (its B end).
+    assert document["splices"][0]["a_toward"] == "LK-P3"
+    assert "b_toward" not in document["splices"][0]  # C-B ends at LC-1: no side to name
+
+
+def test_command_lines_say_which_way_a_mid_span_piece_runs(yard: Database, plant: PlantCli) -> None:
+    # C-T passes through LC-1 from LK-P1 (A end) to LK-P3 (B end); C-B ends at LC-1.
+    dry = plant(
+        "splice", "--closure", "LC-1", "--a", "C-T:11/A", "--b", "C-B:11",
+        "--tray", "1", "--slot", "11", "--dry-run",
+    )  # fmt: skip
+    assert dry.exit_code == 0, dry.output
+    assert "LC-1 tray 1 slot 11: C-T:11/A (toward LK-P1) to C-B:11 (fusion)" in dry.stdout
+    done = plant(
+        "splice", "--closure", "LC-1", "--a", "C-B:12", "--b", "C-T:12", "--b-side", "B",
+        "--tray", "1", "--slot", "12",
+    )  # fmt: skip
+    assert done.exit_code == 0, done.output
+    assert "LC-1 tray 1 slot 12: C-B:12 to C-T:12/B (toward LK-P3) (fusion)" in done.stdout
+    removed = plant("unsplice", "--closure", "LC-1", "--tray", "1", "--slot", "12")
+    assert removed.exit_code == 0, removed.output
+    assert "C-B:12 to C-T:12/B (toward LK-P3)" in removed.stdout
 
 
 def test_unsplice_and_move_splice_commands(yard: Database, plant: PlantCli) -> None:

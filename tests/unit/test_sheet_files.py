@@ -6,6 +6,7 @@ yellow, violet, rose, aqua; strand = (unit - 1) x fibers per unit + position (ar
 
 from __future__ import annotations
 
+import csv
 import datetime as dt
 import io
 import zipfile
@@ -185,11 +186,40 @@ def test_an_overlong_cell_is_a_problem() -> None:
     assert sheet.problems == ["line 2: spliced_by is 2007 characters long (limit 1000)"]
 
 
+# The leading characters a spreadsheet may take as the start of a formula: =, +, -, @, tab
+# and carriage return, after OWASP's "CSV Injection" guidance (common practice).
+OWASP_FORMULA_LEADS = ("=", "+", "-", "@", "\t", "\r")
+FORMULA_CELLS = ("=1+2", "+44", "-3+cmd|' /C calc'!A0", "@SUM(A1)", "\t=1+2", "\r=1+2")
+
+
 def test_formula_neutralising_round_trips() -> None:
-    for text in ("=1+2", "+44", "-3", "@SUM(A1)", "plain", "'quoted"):
+    assert set(OWASP_FORMULA_LEADS) <= set(sheet_files.FORMULA_LEADS)
+    for text in FORMULA_CELLS:
+        assert neutralise(text) == "'" + text, text
         assert unquote(neutralise(text)) == text
+    for text in ("plain", "'quoted", "13-24", "C-A", "0.03"):
+        assert neutralise(text) == text and unquote(text) == text
     assert neutralise("=HYPERLINK(x)") == "'=HYPERLINK(x)"
-    assert neutralise("13-24") == "13-24"
+
+
+def test_every_formula_lead_is_neutralised_in_the_written_sheet(tmp_path: Path) -> None:
+    from plantdb.records.sheet_export import write_csv
+    from plantdb.records.splice_rows import ClosureSheet, RecordedEnd, RecordedSplice
+
+    def end(label: str, number: int) -> RecordedEnd:
+        return RecordedEnd(f"{label}:{number}", ("end", label, number), label, str(number))
+
+    splices = [
+        RecordedSplice(n, 1, 1, 24, n, "fusion", None, None, text, end("C-A", n), end("C-B", n))
+        for n, text in enumerate(FORMULA_CELLS, start=1)
+    ]
+    path = tmp_path / "out.csv"
+    write_csv(ClosureSheet("SC-1", "MH-1", [(1, 24)], splices, []), path)
+    with path.open(newline="", encoding="utf-8") as handle:
+        written = [row[COLUMNS.index("spliced_by")] for row in list(csv.reader(handle))[1:]]
+    assert written == ["'" + text for text in FORMULA_CELLS]
+    # ... and the import reads each back exactly as it was recorded.
+    assert [row.get("spliced_by") for row in read_sheet(path).rows] == list(FORMULA_CELLS)
 
 
 @given(st.text(max_size=300))

@@ -156,6 +156,17 @@ def test_a_mid_span_piece_and_a_splitter_leg(yard: FlaskClient) -> None:
     }
 
 
+def test_the_side_choice_names_where_each_piece_runs(yard: FlaskClient) -> None:
+    # W-T passes through WC-1 from WP-1 (its A end) to WP-3 (its B end); the other cables
+    # end at WC-1, so only W-T's ends name the sides.
+    page = page_text(yard.get("/closures/WC-1"))
+    choice = page.split('id="one-a_side"', 1)[1].split("</select>", 1)[0]
+    options = [html.unescape(" ".join(o.split("</option>")[0].split(">", 1)[1].split()))
+               for o in choice.split("<option")[1:]]  # fmt: skip
+    assert options == ["cable ends here", "A: toward WP-1 (W-T)", "B: toward WP-3 (W-T)"]
+    assert page.count("A: toward WP-1 (W-T)") == 6  # both sides of each of the three forms
+
+
 def test_a_refused_form_writes_nothing_and_says_why(yard: FlaskClient) -> None:
     before = _splices(yard)
     # Slot 1 of tray 1 holds W-A:1 already, and W-B has no strand 49.
