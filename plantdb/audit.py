@@ -80,6 +80,10 @@ class ChangeRow:
     cable_id: int | None = None
     other_cable_id: int | None = None
     circuit_id: int | None = None
+    panel_id: int | None = None
+    other_panel_id: int | None = None
+    structure_id: int | None = None
+    span_id: int | None = None
 
 
 # The databases whose drivers get the rows straight (see `plantdb.bulk`).
@@ -95,6 +99,10 @@ _COLUMNS = (
     "cable_id",
     "other_cable_id",
     "circuit_id",
+    "panel_id",
+    "other_panel_id",
+    "structure_id",
+    "span_id",
     "before",
     "after",
 )
@@ -126,6 +134,10 @@ def record_changes(
             row.cable_id,
             row.other_cable_id,
             row.circuit_id,
+            row.panel_id,
+            row.other_panel_id,
+            row.structure_id,
+            row.span_id,
             _json(row.before),
             _json(row.after),
         )

@@ -18,6 +18,7 @@ import click
 from sqlalchemy.exc import DBAPIError
 
 from plantdb import __version__
+from plantdb.cli_access import ACCESS_MARK, READS, acting_for
 from plantdb.db import (
     ENV_URL,
     Database,
@@ -25,7 +26,7 @@ from plantdb.db import (
     resolve_url,
     run_in_transaction,
 )
-from plantdb.errors import PlantError
+from plantdb.errors import PlantError, UsageProblem
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -60,8 +61,16 @@ class Invocation:
             self._database.dispose()
 
 
-def plant_command(group: click.Group, name: str, **settings: Any) -> Callable[[F], F]:
-    """Register a command with the --db and --json options every command accepts."""
+def plant_command(
+    group: click.Group, name: str, *, access: str | frozenset[str], **settings: Any
+) -> Callable[[F], F]:
+    """Register a command with the options every command accepts.
+
+    `access` is `cli_access.READS` for a command that changes nothing in the record, else
+    `cli_access.writes(ROLE, ...)`: once people exist, the command then acts as a person whose
+    role allows it (see `plantdb.cli_access`). Every command says which; a test holds that.
+    """
+    words = " ".join(part for part in (group.name, name) if part and part != "cli")
 
     def decorate(function: F) -> F:
         @group.command(name, **settings)
@@ -72,28 +81,48 @@ def plant_command(group: click.Group, name: str, **settings: Any) -> Callable[[F
             help="SQLAlchemy database URL (default: $PLANTDB_DATABASE_URL, else ./plantdb.sqlite)",
         )
         @click.option("--json", "as_json", is_flag=True, help="Print the JSON document.")
+        @click.option(
+            "--database-owner",
+            is_flag=True,
+            help="Once people exist, act as the administrator without a token (you hold the"
+            " database's own credentials; written to the security log).",
+        )
         @click.pass_context
         @functools.wraps(function)
-        def wrapper(ctx: click.Context, db_url: str | None, as_json: bool, **kwargs: Any) -> Any:
+        def wrapper(
+            ctx: click.Context,
+            db_url: str | None,
+            as_json: bool,
+            database_owner: bool,
+            **kwargs: Any,
+        ) -> Any:
             parent = ctx.find_object(_GroupOptions)
             invocation = Invocation(
                 db_url or (parent.db_url if parent else None),
                 as_json or bool(parent and parent.as_json),
             )
             try:
-                return function(invocation, **kwargs)
+                if access == READS:
+                    return function(invocation, **kwargs)
+                owner = database_owner or bool(parent and parent.database_owner)
+                database = invocation.database(current=False)
+                assert isinstance(access, frozenset)
+                with acting_for(database, words, access, owner):
+                    return function(invocation, **kwargs)
             finally:
                 invocation.close()
 
+        setattr(wrapper, ACCESS_MARK, access)
         return wrapper  # type: ignore[return-value]
 
     return decorate
 
 
 class _GroupOptions:
-    def __init__(self, db_url: str | None, as_json: bool) -> None:
+    def __init__(self, db_url: str | None, as_json: bool, database_owner: bool = False) -> None:
         self.db_url = db_url
         self.as_json = as_json
+        self.database_owner = database_owner
 
 
 class _Group(click.Group):
@@ -102,6 +131,8 @@ class _Group(click.Group):
     def invoke(self, ctx: click.Context) -> Any:
         try:
             return super().invoke(ctx)
+        except UsageProblem as exc:
+            _refuse(exc.message, exc.details, status=2)
         except PlantError as exc:
             _refuse(exc.message, exc.details)
         except DBAPIError as exc:
@@ -110,21 +141,30 @@ class _Group(click.Group):
             _refuse(f"{exc.strerror or exc}: {exc.filename or ''}".rstrip(": "), [])
 
 
-def _refuse(message: str, details: list[str]) -> None:
+def _refuse(message: str, details: list[str], status: int = 1) -> None:
     click.echo(f"plantdb: {message}", err=True)
     for line in details:
         click.echo(f"  {line}", err=True)
-    sys.exit(1)
+    sys.exit(status)
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="plantdb")
 @click.option("--db", "db_url", metavar="URL", help="SQLAlchemy database URL for any command.")
 @click.option("--json", "as_json", is_flag=True, help="Print JSON documents.")
+@click.option(
+    "--database-owner",
+    is_flag=True,
+    help="Once people exist, act as the administrator without a token (logged).",
+)
 @click.pass_context
-def cli(ctx: click.Context, db_url: str | None, as_json: bool) -> None:
-    """plantdb: the record of a fiber-optic cable plant, and the answers drawn from it."""
-    ctx.obj = _GroupOptions(db_url, as_json)
+def cli(ctx: click.Context, db_url: str | None, as_json: bool, database_owner: bool) -> None:
+    """plantdb: the record of a fiber-optic cable plant, and the answers drawn from it.
+
+    Once people exist, commands that write act as a person: put an API token in
+    $PLANTDB_TOKEN (see `plantdb token add`).
+    """
+    ctx.obj = _GroupOptions(db_url, as_json, database_owner)
 
 
 def main() -> None:

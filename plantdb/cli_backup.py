@@ -9,6 +9,7 @@ import click
 
 from plantdb.backup import backup_database
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS
 
 
 def backup_text(document: dict[str, Any]) -> str:
@@ -21,7 +22,7 @@ def backup_text(document: dict[str, Any]) -> str:
     return f"{line}\nnote: {hint}" if hint else line
 
 
-@plant_command(cli, "backup")
+@plant_command(cli, "backup", access=READS)
 @click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--overwrite", is_flag=True, help="Replace FILE if it exists.")
 def backup_command(run: Invocation, file: Path, overwrite: bool) -> None:

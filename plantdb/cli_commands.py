@@ -10,6 +10,7 @@ import click
 from sqlalchemy.orm import Session
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS, writes
 from plantdb.db import run_in_transaction, upgrade_schema
 from plantdb.errors import PlantError
 from plantdb.records.bundle import dump_bundle, load_bundle, read_bundle_file
@@ -20,7 +21,7 @@ def _counts_text(counts: dict[str, int]) -> str:
     return "\n".join(f"  {name.replace('_', ' ')}: {n}" for name, n in counts.items() if n)
 
 
-@plant_command(cli, "init")
+@plant_command(cli, "init", access=writes())
 def init_command(run: Invocation) -> None:
     """Create the schema, or upgrade it to the newest migration (safe to run again)."""
     database = run.database(current=False)
@@ -54,7 +55,7 @@ def _load(run: Invocation, data: Any, *, require_empty: bool) -> dict[str, int]:
     return run_in_transaction(run.database(), work)
 
 
-@plant_command(cli, "demo")
+@plant_command(cli, "demo", access=writes("clerk"))
 def demo_command(run: Invocation) -> None:
     """Load the invented demo town (Quillmere) into an empty database."""
     from seed_data.demo_town import build_demo_bundle
@@ -63,7 +64,7 @@ def demo_command(run: Invocation) -> None:
     run.emit({"loaded": counts}, lambda d: "demo town loaded:\n" + _counts_text(d["loaded"]))
 
 
-@plant_command(cli, "load")
+@plant_command(cli, "load", access=writes("clerk"))
 @click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
 def load_command(run: Invocation, file: Path) -> None:
     """Load a bundle in one transaction: all of it or none."""
@@ -75,7 +76,7 @@ def load_command(run: Invocation, file: Path) -> None:
     )
 
 
-@plant_command(cli, "dump")
+@plant_command(cli, "dump", access=READS)
 @click.option(
     "-o",
     "--output",
@@ -91,15 +92,29 @@ def dump_command(run: Invocation, output: Path | None) -> None:
         click.echo(text, nl=False)
         return
     temporary = output.with_name(output.name + ".partial")
-    temporary.write_text(text, encoding="utf-8")
-    temporary.replace(output)  # a reader never sees half a bundle
+    try:
+        temporary.write_text(text, encoding="utf-8")
+        temporary.replace(output)  # a reader never sees half a bundle
+    except OSError as exc:
+        temporary.unlink(missing_ok=True)
+        raise PlantError(f"cannot write {output}: {exc.strerror or exc}") from exc
     if run.as_json:
         click.echo(json.dumps({"written": str(output), "bytes": len(text.encode())}))
     else:
         click.echo(f"wrote {output}", err=True)
 
 
-@plant_command(cli, "summary")
+@plant_command(cli, "fiber-types", access=READS)
+def fiber_types_command(run: Invocation) -> None:
+    """The record's fiber types: optical values per wavelength and their sources."""
+    from plantdb.records.fiber_types import fiber_types_document, fiber_types_text
+
+    with run.database().read() as session:
+        document = fiber_types_document(session)
+    run.emit(document, fiber_types_text)
+
+
+@plant_command(cli, "summary", access=READS)
 def summary_command(run: Invocation) -> None:
     """Count what the record holds."""
     with run.database().read() as session:

@@ -1,4 +1,5 @@
-"""Who changed what, when: `plantdb history --closure|--cable|--circuit LABEL`."""
+"""Who changed what, when: `plantdb history --closure|--cable|--circuit|--panel|--structure|
+--span LABEL`."""
 
 from __future__ import annotations
 
@@ -8,6 +9,7 @@ from typing import Any
 import click
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS
 from plantdb.records.history import KINDS, VERBS, change_summary, history_document
 from plantdb.tables import format_table
 
@@ -34,19 +36,26 @@ def history_text(document: dict[str, Any]) -> str:
     return f"{head}\n{table}"
 
 
-def _target(closure: str | None, cable: str | None, circuit: str | None) -> tuple[str, str]:
-    given = [(k, v) for k, v in zip(KINDS, (closure, cable, circuit), strict=True) if v]
+def _target(labels: dict[str, str | None]) -> tuple[str, str]:
+    """The one (kind, label) asked for, from the options named by kind."""
+    given = [(kind, labels[kind]) for kind in KINDS if labels[kind]]
     if len(given) != 1:
-        raise click.UsageError(
-            "give exactly one of --closure LABEL, --cable LABEL or --circuit LABEL"
-        )
-    return given[0]
+        options = [f"--{kind} LABEL" for kind in KINDS]
+        raise click.UsageError(f"give exactly one of {', '.join(options[:-1])} or {options[-1]}")
+    kind, label = given[0]
+    assert label is not None
+    return kind, label
 
 
-@plant_command(cli, "history")
+@plant_command(cli, "history", access=READS)
 @click.option("--closure", metavar="LABEL", help="A closure: it, its splices, cuts, splitters.")
 @click.option("--cable", metavar="LABEL", help="A cable: it, its cuts, splices, terminations.")
 @click.option("--circuit", metavar="LABEL", help="A circuit: it, its status, its loss tests.")
+@click.option("--panel", metavar="LABEL", help="A panel: it, its terminations, jumpers, splitters.")
+@click.option(
+    "--structure", metavar="LABEL", help="A structure: it, the closures, panels, equipment in it."
+)
+@click.option("--span", metavar="LABEL", help="A span: it.")
 @click.option(
     "--since",
     type=click.DateTime(["%Y-%m-%d"]),
@@ -58,10 +67,22 @@ def history_command(
     closure: str | None,
     cable: str | None,
     circuit: str | None,
+    panel: str | None,
+    structure: str | None,
+    span: str | None,
     since: dt.datetime | None,
 ) -> None:
-    """Who changed what, when: every recorded change of a closure, cable or circuit."""
-    kind, label = _target(closure, cable, circuit)
+    """Who changed what, when: every recorded change of a closure, cable, circuit, panel,
+    structure or span."""
+    labels = {
+        "closure": closure,
+        "cable": cable,
+        "circuit": circuit,
+        "panel": panel,
+        "structure": structure,
+        "span": span,
+    }
+    kind, label = _target(labels)
     with run.database().read() as session:
         document = history_document(session, kind, label, since=since)
     run.emit(document, history_text)

@@ -8,15 +8,18 @@ of the machine could see them in the process list.
 
 from __future__ import annotations
 
+import functools
 import logging
-import os
 import sys
-from typing import Any
+from collections.abc import Callable
+from typing import Any, TypeVar
 
 import click
 from sqlalchemy.orm import Session
 
+from plantdb.audit import current_actor
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS, writes
 from plantdb.db import run_in_transaction
 from plantdb.errors import PlantError
 from plantdb.people import (
@@ -28,19 +31,32 @@ from plantdb.people import (
     list_people,
     set_password,
 )
-from plantdb.security_log import log_event
+from plantdb.security_log import configured_path, log_event, sent_to
+
+F = TypeVar("F", bound=Callable[..., Any])
 
 
 def _operator() -> str:
-    """Who ran the command, for the security log (the operating-system account)."""
-    try:
-        return os.getlogin()
-    except OSError:
-        return os.environ.get("USER") or os.environ.get("USERNAME") or "unknown"
+    """Who ran the command, for the security log: the person whose token it ran with, else
+    the operating-system account (`cli:<login>`), as the history records it."""
+    return current_actor()
 
 
 def _log(event: str, name: str, **more: object) -> None:
     log_event(event, _operator(), "command line", name, level=logging.INFO, **more)
+
+
+def _logged(command: F) -> F:
+    """Run a command that changes people with the security log open where `plantdb serve`
+    writes its own ($PLANTDB_SECURITY_LOG, else standard error). It is opened first, so a
+    log file that cannot be written is refused before anything changes."""
+
+    @functools.wraps(command)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        with sent_to(configured_path()):
+            return command(*args, **kwargs)
+
+    return wrapper  # type: ignore[return-value]
 
 
 def read_password() -> str:
@@ -61,7 +77,7 @@ def user_group() -> None:
     """Add, list and disable the people who may use the web UI and the API."""
 
 
-@plant_command(user_group, "add")
+@plant_command(user_group, "add", access=writes())
 @click.argument("name")
 @click.option(
     "--role",
@@ -70,6 +86,7 @@ def user_group() -> None:
     help="viewer reads; clerk edits the record; dispatcher sets circuit status; engineer"
     " edits circuits and test results; admin does everything.",
 )
+@_logged
 def user_add_command(run: Invocation, name: str, role: str) -> None:
     """Add a person; the password is read from standard input (8 to 64 characters)."""
     password = read_password()
@@ -83,8 +100,9 @@ def user_add_command(run: Invocation, name: str, role: str) -> None:
     run.emit(document, lambda d: f"added {d['name']} ({d['role']})")
 
 
-@plant_command(user_group, "disable")
+@plant_command(user_group, "disable", access=writes())
 @click.argument("name")
+@_logged
 def user_disable_command(run: Invocation, name: str) -> None:
     """Disable a person: their sessions and tokens stop working at once."""
     run_in_transaction(run.database(), lambda session: disable_person(session, name))
@@ -95,8 +113,9 @@ def user_disable_command(run: Invocation, name: str) -> None:
     )
 
 
-@plant_command(user_group, "enable")
+@plant_command(user_group, "enable", access=writes())
 @click.argument("name")
+@_logged
 def user_enable_command(run: Invocation, name: str) -> None:
     """Let a disabled person sign in again (their old sessions and tokens stay revoked)."""
     run_in_transaction(run.database(), lambda session: enable_person(session, name))
@@ -104,8 +123,9 @@ def user_enable_command(run: Invocation, name: str) -> None:
     run.emit({"name": name, "disabled": False}, lambda d: f"enabled {d['name']}")
 
 
-@plant_command(user_group, "password")
+@plant_command(user_group, "password", access=writes())
 @click.argument("name")
+@_logged
 def user_password_command(run: Invocation, name: str) -> None:
     """Set a person's password (from standard input); their sessions and tokens are revoked."""
     password = read_password()
@@ -128,7 +148,7 @@ def _people_text(document: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@plant_command(user_group, "list")
+@plant_command(user_group, "list", access=READS)
 def user_list_command(run: Invocation) -> None:
     """List every person with their role, whether disabled, and their working tokens."""
     with run.database().read() as session:
@@ -141,8 +161,9 @@ def token_group() -> None:
     """API tokens (`Authorization: Bearer …`) for programs that use the JSON API."""
 
 
-@plant_command(token_group, "add")
+@plant_command(token_group, "add", access=writes())
 @click.argument("name")
+@_logged
 def token_add_command(run: Invocation, name: str) -> None:
     """Print a new API token for the person; it is shown this once and kept only as a hash."""
     token = run_in_transaction(run.database(), lambda session: add_token(session, name))

@@ -14,6 +14,7 @@ import click
 from sqlalchemy.orm import Session
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS, writes
 from plantdb.db import run_in_transaction
 from plantdb.errors import PlantError
 from plantdb.records.sheet_export import export_splice_sheet
@@ -32,11 +33,17 @@ from plantdb.records.splicing import (
 _SLOTS = re.compile(r"^\s*(\d+)\s*(?:-\s*(\d+)\s*)?$")
 
 
+def _end_text(item: dict[str, Any], end: str) -> str:
+    """An end of a reported splice; a mid-span piece says where its glass runs."""
+    toward = item.get(f"{end}_toward")
+    return item[end] if toward is None else f"{item[end]} (toward {toward})"
+
+
 def _splice_line(item: dict[str, Any]) -> str:
     loss = "" if item.get("loss_db") is None else f", {item['loss_db']:.2f} dB"
     return (
-        f"    {item['closure']} tray {item['tray']} slot {item['slot']}: {item['a']} to"
-        f" {item['b']} ({item['method']}{loss})"
+        f"    {item['closure']} tray {item['tray']} slot {item['slot']}: {_end_text(item, 'a')}"
+        f" to {_end_text(item, 'b')} ({item['method']}{loss})"
     )
 
 
@@ -98,7 +105,7 @@ def _slots(text: str) -> list[int]:
 _SIDE = click.Choice(["A", "B"], case_sensitive=False)
 
 
-@plant_command(cli, "splice")
+@plant_command(cli, "splice", access=writes("clerk"))
 @click.option("--closure", required=True, metavar="LABEL", help="The closure spliced in.")
 @click.option(
     "--a",
@@ -136,7 +143,7 @@ def splice_command(run: Invocation, **options: Any) -> None:
     _finish(run, document, dry_run=dry_run)
 
 
-@plant_command(cli, "unsplice")
+@plant_command(cli, "unsplice", access=writes("clerk"))
 @click.option("--closure", required=True, metavar="LABEL", help="The closure.")
 @click.option("--tray", type=int, required=True, help="Tray number.")
 @click.option("--slot", required=True, metavar="N|N-M", help="A slot, or a range of slots.")
@@ -147,7 +154,7 @@ def unsplice_command(run: Invocation, closure: str, tray: int, slot: str) -> Non
     _finish(run, document)
 
 
-@plant_command(cli, "move-splice")
+@plant_command(cli, "move-splice", access=writes("clerk"))
 @click.option("--closure", required=True, metavar="LABEL", help="The closure.")
 @click.option("--tray", type=int, required=True, help="Tray the splices are in now.")
 @click.option("--slot", required=True, metavar="N|N-M", help="Their slot, or range of slots.")
@@ -192,7 +199,7 @@ class _Progress:
             self.bar.close()
 
 
-@plant_command(import_group, "splices")
+@plant_command(import_group, "splices", access=writes("clerk"))
 @click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--dry-run", is_flag=True, help="Check the whole sheet, show what would be added.")
 def import_splices_command(run: Invocation, file: Path, dry_run: bool) -> None:
@@ -217,7 +224,7 @@ def export_group() -> None:
     """Write records out to files (splice sheets)."""
 
 
-@plant_command(export_group, "splices")
+@plant_command(export_group, "splices", access=READS)
 @click.option("--closure", required=True, metavar="LABEL", help="The closure.")
 @click.option(
     "-o",

@@ -9,6 +9,7 @@ import click
 from sqlalchemy.orm import Session
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS, writes
 from plantdb.db import WRITE_OPTION
 from plantdb.errors import PlantError
 from plantdb.records.summary import is_empty
@@ -21,7 +22,7 @@ def _synth_text(document: dict[str, Any]) -> str:
     )
 
 
-@plant_command(cli, "synth")
+@plant_command(cli, "synth", access=writes())
 @click.option("--fibers", type=int, required=True, help="About how many strands to build.")
 @click.option("--seed", type=int, default=1, show_default=True, help="Same seed, same plant.")
 def synth_command(run: Invocation, fibers: int, seed: int) -> None:
@@ -78,7 +79,7 @@ def _bench_text(document: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@plant_command(cli, "bench")
+@plant_command(cli, "bench", access=READS)
 @click.option(
     "--fibers",
     type=int,

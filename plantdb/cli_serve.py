@@ -4,19 +4,16 @@ from __future__ import annotations
 
 import ipaddress
 import json
-import logging
 import os
-import sys
-from collections.abc import Iterator
-from contextlib import contextmanager
 from pathlib import Path
 
 import click
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS
 from plantdb.errors import PlantError
 from plantdb.people import anyone_defined
-from plantdb.security_log import LOGGER_NAME
+from plantdb.security_log import ENV_SECURITY_LOG, sent_to
 
 ENV_TILE_URL = "PLANTDB_TILE_URL"
 
@@ -45,27 +42,7 @@ def _refuse_open_to_others(run: Invocation, host: str) -> None:
     )
 
 
-@contextmanager
-def _security_log(path: Path | None) -> Iterator[None]:
-    """While serving, send the security log to a file, or to standard error."""
-    logger = logging.getLogger(LOGGER_NAME)
-    if path is None:
-        handler: logging.Handler = logging.StreamHandler(sys.stderr)
-    else:
-        handler = logging.FileHandler(path, encoding="utf-8")
-    handler.setFormatter(logging.Formatter("plantdb.security %(levelname)s %(message)s"))
-    level = logger.level
-    logger.setLevel(logging.INFO)
-    logger.addHandler(handler)
-    try:
-        yield
-    finally:
-        logger.removeHandler(handler)
-        logger.setLevel(level)
-        handler.close()
-
-
-@plant_command(cli, "serve")
+@plant_command(cli, "serve", access=READS)
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option(
     "--port",
@@ -98,7 +75,9 @@ def _security_log(path: Path | None) -> Iterator[None]:
 @click.option(
     "--security-log",
     type=click.Path(dir_okay=False, path_type=Path),
-    help="Append the security log (sign-ins, refusals) to this file (default: standard error).",
+    envvar=ENV_SECURITY_LOG,
+    help="Append the security log (sign-ins, refusals) to this file (default:"
+    f" ${ENV_SECURITY_LOG}, else standard error).",
 )
 def serve_command(
     run: Invocation,
@@ -137,5 +116,5 @@ def serve_command(
         click.echo(json.dumps({**document, "behind_proxy": behind_proxy}))
     else:
         click.echo(f"plantdb: serving {run.url} at {address} (Ctrl+C to stop)")
-    with _security_log(security_log):
+    with sent_to(security_log):
         serve(app, host=host, port=port, threads=threads, ident="plantdb")

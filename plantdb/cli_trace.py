@@ -8,6 +8,7 @@ from typing import Any
 import click
 
 from plantdb.cli import Invocation, cli, plant_command
+from plantdb.cli_access import READS
 from plantdb.db import run_in_transaction
 from plantdb.trace.dispatch import impact_document, live_document, locate_document
 from plantdb.trace.dispatch_text import impact_text, live_text, locate_text
@@ -18,7 +19,7 @@ from plantdb.trace.text import loss_text, trace_text
 from plantdb.trace.tracing import require_start
 
 
-@plant_command(cli, "trace")
+@plant_command(cli, "trace", access=READS)
 @click.option("--port", metavar="PANEL:PORT", help="Start at a panel or equipment port.")
 @click.option("--fiber", metavar="CABLE:STRAND", help="Start at a strand (walks both ways).")
 @click.option("--circuit", metavar="LABEL", help="A circuit's path from its A end to Z.")
@@ -32,7 +33,7 @@ def trace_command(
     run.emit(document, trace_text)
 
 
-@plant_command(cli, "loss")
+@plant_command(cli, "loss", access=READS)
 @click.option("--circuit", metavar="LABEL", help="A circuit's path from A to Z.")
 @click.option("--port", metavar="PANEL:PORT", help="Every path from a port.")
 @click.option(
@@ -92,7 +93,7 @@ def _check_text(document: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@plant_command(cli, "check")
+@plant_command(cli, "check", access=READS)
 def check_command(run: Invocation) -> None:
     """Records health: circuits whose A no longer reaches Z, connections breaking the rules.
 
@@ -104,7 +105,7 @@ def check_command(run: Invocation) -> None:
         sys.exit(1)
 
 
-@plant_command(cli, "live")
+@plant_command(cli, "live", access=READS)
 @click.option("--closure", required=True, metavar="LABEL", help="The closure a crew will open.")
 def live_command(run: Invocation, closure: str) -> None:
     """Every strand through a closure, live ones first, with the circuits on each."""
@@ -113,7 +114,7 @@ def live_command(run: Invocation, closure: str) -> None:
     run.emit(document, live_text)
 
 
-@plant_command(cli, "impact")
+@plant_command(cli, "impact", access=READS)
 @click.option("--span", metavar="LABEL", help="A span that was cut.")
 @click.option("--structure", metavar="LABEL", help="A structure where everything was cut.")
 def impact_command(run: Invocation, span: str | None, structure: str | None) -> None:
@@ -123,7 +124,7 @@ def impact_command(run: Invocation, span: str | None, structure: str | None) -> 
     run.emit(document, impact_text)
 
 
-@plant_command(cli, "locate")
+@plant_command(cli, "locate", access=READS)
 @click.option("--port", required=True, metavar="PANEL:PORT", help="Where the OTDR was connected.")
 @click.option("--distance-m", required=True, type=float, help="The distance the OTDR reports.")
 @click.option("--wavelength", type=int, metavar="NM", help="OTDR wavelength (default 1310 SM).")

@@ -16,6 +16,10 @@ class PlantError(Exception):
         self.details = list(details or [])
 
 
+class UsageProblem(PlantError):
+    """A request put together wrongly (options missing or clashing): exit status 2."""
+
+
 class NotFound(PlantError):
     """A label or address that names nothing in the record."""
 

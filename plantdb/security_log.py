@@ -3,15 +3,26 @@
 One event is one line: `EVENT at=<UTC> who="…" from="…" what="…" [key="…" …]`. Every value
 is quoted and escaped, so a name or a path holding a line break, a quote or another control
 character cannot forge a second line or a field (log injection).
+
+`plantdb serve` and the people commands (`plantdb user …`, `plantdb token add`) send these
+lines to the same place, through `sent_to`: the file named by `--security-log` (serve) or
+$PLANTDB_SECURITY_LOG, else standard error.
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import logging
+import os
+import sys
 import unicodedata
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
 
 LOGGER_NAME = "plantdb.security"
+ENV_SECURITY_LOG = "PLANTDB_SECURITY_LOG"
+LINE_FORMAT = "plantdb.security %(levelname)s %(message)s"
 logger = logging.getLogger(LOGGER_NAME)
 
 # Unicode categories escaped: controls, format characters, surrogates, private use,
@@ -51,3 +62,28 @@ def log_event(
 ) -> None:
     """Write one security event (successes at INFO, failures and refusals at WARNING)."""
     logger.log(level, "%s", event_line(event, who, where, what, **more))
+
+
+def configured_path() -> Path | None:
+    """The security log file named by $PLANTDB_SECURITY_LOG (None: standard error)."""
+    value = os.environ.get(ENV_SECURITY_LOG)
+    return Path(value) if value else None
+
+
+@contextmanager
+def sent_to(path: Path | None) -> Iterator[None]:
+    """Within the block, write the security log to a file (appended), or to standard error."""
+    if path is None:
+        handler: logging.Handler = logging.StreamHandler(sys.stderr)
+    else:
+        handler = logging.FileHandler(path, encoding="utf-8")
+    handler.setFormatter(logging.Formatter(LINE_FORMAT))
+    level = logger.level
+    logger.setLevel(logging.INFO)
+    logger.addHandler(handler)
+    try:
+        yield
+    finally:
+        logger.removeHandler(handler)
+        logger.setLevel(level)
+        handler.close()

@@ -6,8 +6,13 @@ from one second, capped) once past their free allowance:
 - the (name, address) pair: someone guessing one person's password from one place;
 - the address: someone trying many names from one place;
 - the name, across all addresses: guessing spread over many places. This one applies only
-  to an address that has itself failed for this name in the window, so a person signing in
-  from a fresh address with the right password always gets in.
+  to an address that has used up its own free tries for this name in the window (as many as
+  the pair's), and never to an address this name has signed in from in the last day.
+
+So failures made elsewhere never slow a person at a fresh address, at an address where she
+has failed fewer than `pair_free` times, or at one she signed in from in the last day: only
+that address's own failures count against her there. Guessing spread over many addresses
+still meets the name's count at each address once that address has had its free tries.
 
 A try made during a wait is refused without checking the password. There is no hard lockout
 of an account: a flood of failures from elsewhere cannot keep its owner out.
@@ -74,12 +79,16 @@ def _failures(
     return int(row[0]), row[1]
 
 
-def _last_success(session: Session, account: str, address: str) -> dt.datetime | None:
+def _last_success(
+    session: Session, account: str, address: str, since: dt.datetime
+) -> dt.datetime | None:
+    """When this name last signed in from this address after `since` (None: not since)."""
     return session.scalar(
         select(func.max(SignInAttempt.at)).where(
             SignInAttempt.ok.is_(True),
             SignInAttempt.account == account,
             SignInAttempt.address == address,
+            SignInAttempt.at > since,
         )
     )
 
@@ -90,7 +99,7 @@ def wait_before_try(
     """How long this (name, address) must still wait before its next try (zero: go ahead)."""
     account, address = account[:NAME_LENGTH], address[:ADDRESS_LENGTH]
     since = now - limits.window
-    success = _last_success(session, account, address)
+    success = _last_success(session, account, address, now - KEEP_ATTEMPTS)
     pair_since = max(since, success) if success else since
     same_account = SignInAttempt.account == account
     same_address = SignInAttempt.address == address
@@ -99,7 +108,8 @@ def wait_before_try(
         (pair, limits.pair_free),
         (_failures(session, since, same_address), limits.address_free),
     ]
-    if pair[0]:
+    if success is None and pair[0] >= limits.pair_free:
+        # Only here do failures made elsewhere count: see the module's docstring.
         counts.append((_failures(session, since, same_account), limits.account_free))
     wait = dt.timedelta(0)
     for (failures, last), free in counts:

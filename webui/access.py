@@ -3,8 +3,10 @@
 Each request is identified before its view runs: an `Authorization: Bearer` API token, else
 the web session named by the session cookie (checked against the server's table, so a
 sign-out or a disabled person takes effect at once). With nobody defined the app is open, to
-this machine only; once anyone is defined, every route but the sign-in page and the static
-files needs a person (401 for the API, a redirect to sign-in for pages).
+this machine only: a request from another address, or one that came through a proxy that was
+not declared with `--behind-proxy`, is refused with 403. Once anyone is defined, every route
+but the sign-in page and the static files needs a person (401 for the API, a redirect to
+sign-in for pages).
 
 Changes happen only on POST and only in views marked `@writes(role, ...)`, which names the
 roles allowed (admin always is); a POST to any other view is refused with 405 before it
@@ -55,6 +57,22 @@ STATIC_ENDPOINTS = frozenset(
     {"static", "assets.leaflet", "assets.colours", "assets.print_sheet_css", "assets.favicon"}
 )
 OPEN_ENDPOINTS = STATIC_ENDPOINTS | {"auth.sign_in", "auth.sign_in_post"}
+# Headers a proxy adds naming the client it passes a request on for (RFC 7239's Forwarded,
+# the common X-Forwarded-* family, and the single-address ones some proxies send instead).
+FORWARDING_HEADERS = (
+    "Forwarded",
+    "X-Forwarded-For",
+    "X-Forwarded-Host",
+    "X-Forwarded-Proto",
+    "X-Forwarded-Prefix",
+    "X-Forwarded-Port",
+    "X-Forwarded-Server",
+    "X-Real-IP",
+    "X-Client-IP",
+    "X-Cluster-Client-IP",
+    "True-Client-IP",
+    "Via",
+)
 
 
 def writes(*roles: str) -> Callable[[F], F]:
@@ -191,13 +209,36 @@ def _unauthorized(reason: str) -> Any:
     return redirect(url_for("auth.sign_in", next=request.full_path.rstrip("?")))
 
 
-def _only_this_machine() -> None:
+def _forwarding_headers() -> list[str]:
+    """The forwarding headers this request carries (a proxy passed it on)."""
+    return [name for name in FORWARDING_HEADERS if name in request.headers]
+
+
+def _why_not_this_machine() -> str | None:
+    """Why an open-mode request cannot be taken as from this machine (None: it is).
+
+    A proxy on this machine connects from 127.0.0.1 whoever its client is, so a request that
+    came through one is never "the single user at the machine". Behind a declared proxy
+    (`--behind-proxy`) ProxyFix has already put the forwarded client's address in
+    remote_addr, and that address decides; a forwarding header ProxyFix does not read,
+    without the X-Forwarded-For it does, leaves the client unknown.
+    """
+    forwarded = _forwarding_headers()
+    if forwarded and not current_app.config.get("BEHIND_PROXY"):
+        return f"came through a proxy ({', '.join(forwarded)}) and none is declared"
+    if forwarded and "X-Forwarded-For" not in forwarded:
+        return f"came through the proxy without X-Forwarded-For ({', '.join(forwarded)})"
     try:
         loopback = ipaddress.ip_address(_address()).is_loopback
     except ValueError:
         loopback = False
-    if not loopback:
-        log_refusal("nobody is defined: open to this machine only", status=403)
+    return None if loopback else "from another machine"
+
+
+def _only_this_machine() -> None:
+    why = _why_not_this_machine()
+    if why is not None:
+        log_refusal(f"nobody is defined: open to this machine only; {why}", status=403)
         raise Forbidden(
             "nobody is defined on this server, so it answers only its own machine;"
             " add a person with `plantdb user add` to let others sign in"

@@ -11,7 +11,7 @@ from typing import Any
 from flask import Flask, Response, current_app, jsonify, render_template, request
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
-from plantdb.errors import ConflictError, NotFound, PlantError, SchemaError
+from plantdb.errors import ConflictError, NotFound, PlantError, SchemaError, UsageProblem
 from plantdb.records.splicing import SpliceRefused
 from webui.params import refuse_nul_characters
 
@@ -26,6 +26,8 @@ def status_of(error: PlantError) -> int:
         return 409
     if isinstance(error, SchemaError):
         return 503
+    if isinstance(error, UsageProblem):
+        return 400
     return 422
 
 

@@ -1,6 +1,6 @@
-"""History pages: every change of a closure, cable or circuit (who, when, what, before and
-after), the panel of the latest changes on each of their pages, and a closure's splice sheet
-as it was recorded on a given day."""
+"""History pages: every change of a closure, cable, circuit, panel, structure or span (who,
+when, what, before and after), the panel of the latest changes on each of their pages, and a
+closure's splice sheet as it was recorded on a given day."""
 
 from __future__ import annotations
 
@@ -38,9 +38,10 @@ def _day(args: Any, name: str) -> dt.date | None:
         raise BadRequest(error.message.replace("as_of", name, 1)) from None
 
 
-@blueprint.route("/<any(closure, cable, circuit):kind>/<path:label>")
+@blueprint.route("/<any(closure, cable, circuit, panel, structure, span):kind>/<path:label>")
 def history(kind: str, label: str) -> str:
-    """Every recorded change of a closure, cable or circuit, newest first, a page at a time."""
+    """Every recorded change of a thing with a history (`KINDS`), newest first, a page at a
+    time."""
     since = _day(request.args, "since")
     page = params.whole(request.args, "page") or 1
     start = dt.datetime.combine(since, dt.time.min) if since else None

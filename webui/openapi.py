@@ -1,4 +1,9 @@
-"""The OpenAPI 3.1 description of the JSON API, served at /api/v1/openapi.json."""
+"""The OpenAPI 3.1 description of the JSON API, served at /api/v1/openapi.json.
+
+It names how to authenticate (an API token as a bearer token, or a signed-in browser's
+session cookie) and every answer a route gives, refusals included: 401 and 403 from the gate
+in `webui.access`, 413 from the size limit, 409 for a lost race (`webui.errors`).
+"""
 
 from __future__ import annotations
 
@@ -6,6 +11,7 @@ from typing import Any
 
 from plantdb import __version__
 from plantdb.records.sheet_files import COLUMNS, REQUIRED
+from webui.security import COOKIE_SETTINGS
 
 _ERROR = {
     "type": "object",
@@ -141,6 +147,55 @@ _DOCUMENTS: dict[str, dict[str, Any]] = {
 }
 
 
+BEARER = "bearerToken"
+SESSION_COOKIE = COOKIE_SETTINGS["SESSION_COOKIE_NAME"]
+SECURITY_SCHEMES = {
+    BEARER: {
+        "type": "http",
+        "scheme": "bearer",
+        "description": "An API token made by `plantdb token add NAME` (it starts pdb_), sent as"
+        " `Authorization: Bearer pdb_…`; it acts with its person's role and needs no CSRF"
+        f" token. A signed-in browser's session cookie ({SESSION_COOKIE}) works too; a POST"
+        " with it must also send the page's CSRF token in the X-CSRFToken header.",
+    }
+}
+# A token, or nothing: with nobody defined the server needs no credentials from this machine.
+SECURITY: list[dict[str, list[str]]] = [{BEARER: []}, {}]
+
+_ERROR_BODY = {"content": {"application/json": {"schema": {"$ref": "#/components/schemas/Error"}}}}
+UNAUTHORIZED = {
+    "description": "no credentials, or an unknown, revoked or timed-out token or session,"
+    " once anyone is defined on the server",
+    "headers": {
+        "WWW-Authenticate": {
+            "description": 'how to authenticate: Bearer realm="plantdb"',
+            "schema": {"type": "string"},
+        }
+    },
+    **_ERROR_BODY,
+}
+FORBIDDEN_TO_READ = {
+    "description": "with nobody defined, a request from another machine or one that came"
+    " through a proxy the server was not told of (`plantdb serve --behind-proxy`)",
+    **_ERROR_BODY,
+}
+FORBIDDEN_TO_WRITE = {
+    "description": "the person's role may not make this change (the answer names the roles"
+    " that may), the server is read-only, or, with nobody defined, the request came from"
+    " another machine or through a proxy the server was not told of",
+    **_ERROR_BODY,
+}
+TOO_LARGE = {
+    "description": "the body is larger than the server takes (16 MiB unless configured"
+    " otherwise); the answer names the limit",
+    **_ERROR_BODY,
+}
+LOST_RACE = {
+    "description": "another change to the same strand ends or closure won a race, or the"
+    " record stayed busy; nothing was written; send it again",
+    **_ERROR_BODY,
+}
+
 # An address is LABEL:POINT (labels hold no colon), e.g. CO1-FDF01:12, CBL-0042:37/A.
 ADDRESS = {"pattern": "^[^:]+:.+$"}
 
@@ -167,13 +222,15 @@ def _ref(name: str) -> dict[str, str]:
 
 
 def _answers(document: str, *, found: bool = True) -> dict[str, Any]:
-    error = {"content": {"application/json": {"schema": _ref("Error")}}}
+    error = _ERROR_BODY
     answers: dict[str, Any] = {
         "200": {
             "description": "the document",
             "content": {"application/json": {"schema": _ref(document)}},
         },
         "400": {"description": "a missing or malformed parameter", **error},
+        "401": UNAUTHORIZED,
+        "403": FORBIDDEN_TO_READ,
         "422": {"description": "understood but refused by the record's rules", **error},
     }
     if found:
@@ -225,6 +282,9 @@ def _splices_path() -> dict[str, Any]:
                     "description": "splices added",
                     "content": {"application/json": {"schema": _ref("SpliceReport")}},
                 },
+                "403": FORBIDDEN_TO_WRITE,
+                "409": LOST_RACE,
+                "413": TOO_LARGE,
             },
         }
     }
@@ -312,9 +372,14 @@ def openapi_document() -> dict[str, Any]:
             "version": __version__,
             "description": "Read the cable plant record and record splices. The answers are the "
             "same JSON documents as the command line's --json. Unknown labels answer 404; "
-            'bad input 400 or 422 with {"error": ..., "details": [...]}.',
+            'bad input 400 or 422 with {"error": ..., "details": [...]}. Once anyone is '
+            "defined on the server every call needs an API token (Authorization: Bearer) or a "
+            "signed-in session, else 401; with nobody defined the server answers only its own "
+            "machine, without credentials, and refuses others with 403. A role that may not "
+            "make a change is refused with 403.",
         },
         "servers": [{"url": "/api/v1"}],
+        "security": SECURITY,
         "paths": _paths(),
-        "components": {"schemas": schemas},
+        "components": {"schemas": schemas, "securitySchemes": SECURITY_SCHEMES},
     }

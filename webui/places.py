@@ -1,4 +1,5 @@
-"""Structure and span pages: what stands or runs there, with links onward."""
+"""Structure and span pages: what stands or runs there, with links onward, and their latest
+changes."""
 
 from __future__ import annotations
 
@@ -21,6 +22,7 @@ from plantdb.model import (
     Span,
     Structure,
 )
+from webui.history import latest_changes
 from webui.store import reading
 
 blueprint = Blueprint("places", __name__)
@@ -67,7 +69,8 @@ def structure(label: str) -> str:
         if place is None:
             raise NotFound(f"no structure is labelled {label}")
         contents = _contents(session, place.id)
-        return render_template("structure.html", place=place, **contents)
+        history = latest_changes(session, "structure", label)
+        return render_template("structure.html", place=place, history=history, **contents)
 
 
 @blueprint.route("/spans/<path:label>")
@@ -96,6 +99,13 @@ def span(label: str) -> str:
             .where(RouteSpan.span_id == info.id)
             .order_by(Route.label)
         ).all()
+        history = latest_changes(session, "span", label)
         return render_template(
-            "span.html", span=info, start=row.start, end=row.end, cables=cables, routes=routes
+            "span.html",
+            span=info,
+            start=row.start,
+            end=row.end,
+            cables=cables,
+            routes=routes,
+            history=history,
         )

@@ -28,8 +28,18 @@ class ChangeAction(enum.StrEnum):
     DELETE = "delete"
 
 
-# What a change concerns, each column indexed for the history of a closure, cable or circuit.
-CONCERNING = ("closure_id", "cable_id", "other_cable_id", "circuit_id")
+# What a change concerns, each column indexed for the history of a closure, cable, circuit,
+# panel, structure or span.
+CONCERNING = (
+    "closure_id",
+    "cable_id",
+    "other_cable_id",
+    "circuit_id",
+    "panel_id",
+    "other_panel_id",
+    "structure_id",
+    "span_id",
+)
 
 
 def _concerning_index(column: str) -> Index:
@@ -43,9 +53,10 @@ def _concerning_index(column: str) -> Index:
 class Change(Base):
     """One change of one thing of the record, with its values before and after (as JSON).
 
-    `closure_id`, `cable_id` (and `other_cable_id`, the second cable of a splice) and
-    `circuit_id` name what the change concerns, for the history of a closure, a cable or a
-    circuit; each is indexed.
+    `closure_id`, `cable_id` (and `other_cable_id`, the second cable of a splice),
+    `circuit_id`, `panel_id` (and `other_panel_id`, the second panel of a jumper),
+    `structure_id` and `span_id` name what the change concerns, for the history of each kind
+    of thing; each is indexed.
     """
 
     __tablename__ = "change"
@@ -63,6 +74,10 @@ class Change(Base):
     cable_id: Mapped[int | None] = mapped_column(Integer)
     other_cable_id: Mapped[int | None] = mapped_column(Integer)
     circuit_id: Mapped[int | None] = mapped_column(Integer)
+    panel_id: Mapped[int | None] = mapped_column(Integer)
+    other_panel_id: Mapped[int | None] = mapped_column(Integer)
+    structure_id: Mapped[int | None] = mapped_column(Integer)
+    span_id: Mapped[int | None] = mapped_column(Integer)
     # SQL NULL (not a JSON null) where there is no before (an insert) or after (a delete).
     before: Mapped[dict[str, Any] | None] = mapped_column(JSON(none_as_null=True))
     after: Mapped[dict[str, Any] | None] = mapped_column(JSON(none_as_null=True))

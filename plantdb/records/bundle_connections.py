@@ -212,15 +212,20 @@ def load_terminations(ctx: LoadContext, data: dict[str, Any]) -> None:
         ctx.lookup.occupy(end.key, f"terminated on {port.address}")
         method = TerminationMethod(item.get("method") or "pigtail_splice")
         rows.append({**end_row(end), "port_id": port.id, "termination_method": method})
-        changes.append((f"{end.address} on {port.address}", item, end.cable_id))
+        changes.append((f"{end.address} on {port.address}", item, end.cable_id, panel.id))
     if ctx.problems:
         return
     ids = ctx.insert_ids(FiberEnd, rows)
     ctx.changes.extend(
-        added("termination", end_id, label, item, cable_id=cable_id)
-        for end_id, (label, item, cable_id) in zip(ids, changes, strict=True)
+        added("termination", end_id, label, item, cable_id=cable_id, panel_id=panel_id)
+        for end_id, (label, item, cable_id, panel_id) in zip(ids, changes, strict=True)
     )
     ctx.count("terminations", len(rows))
+
+
+def _panel_of(port: PortRef) -> int | None:
+    """The panel a port belongs to (None for an equipment port)."""
+    return port.owner_id if port.kind == "panel" else None
 
 
 def load_jumpers(ctx: LoadContext, data: dict[str, Any]) -> None:
@@ -248,7 +253,14 @@ def load_jumpers(ctx: LoadContext, data: dict[str, Any]) -> None:
         return
     jumper_ids = ctx.insert_ids(Jumper, lengths)
     ctx.changes.extend(
-        added("jumper", jumper_id, f"jumper {a.address} to {b.address}", item)
+        added(
+            "jumper",
+            jumper_id,
+            f"jumper {a.address} to {b.address}",
+            item,
+            panel_id=_panel_of(a),
+            other_panel_id=_panel_of(b),
+        )
         for jumper_id, (a, b), item in zip(jumper_ids, pairs, written, strict=True)
     )
     if jumper_ids:

@@ -1,5 +1,6 @@
 """The history rows the record's services write: a readable label for each thing changed, and
-what the change concerns (its closure, its cables, its circuit) for the history views.
+what the change concerns (its closure, its cables, its circuit, its panels, its structure, its
+span) for the history views.
 
 Labels read like the trade speaks of the thing: "cable F-1", "AC-1 tray 1 slot 3",
 "F-1:5 cut at AC-1", "circuit AG-1".
@@ -30,12 +31,27 @@ def added(
     return ChangeRow(ChangeAction.INSERT, entity, entity_id, label, None, after, **about)
 
 
-def thing_added(entity: str, entity_id: int, label: str, after: dict[str, Any]) -> ChangeRow:
-    """A labelled thing added (a cable, a closure, a circuit...), about itself where it can be."""
-    about = {"cable": "cable_id", "closure": "closure_id", "circuit": "circuit_id"}.get(entity)
-    extra = {about: entity_id} if about else {}
+# The kinds of thing that have a history of their own: the column naming one of them.
+_ITSELF = {
+    "cable": "cable_id",
+    "closure": "closure_id",
+    "circuit": "circuit_id",
+    "panel": "panel_id",
+    "structure": "structure_id",
+    "span": "span_id",
+}
+
+
+def thing_added(
+    entity: str, entity_id: int, label: str, after: dict[str, Any], **about: int | None
+) -> ChangeRow:
+    """A labelled thing added (a cable, a closure, a circuit...), about itself where it can be
+    and about what `about` names (the structure a closure stands in)."""
+    itself = _ITSELF.get(entity)
+    if itself:
+        about[itself] = entity_id
     words = entity.replace("_", " ")
-    return added(entity, entity_id, f"{words} {label}", after, **extra)
+    return added(entity, entity_id, f"{words} {label}", after, **about)
 
 
 def splice_label(closure: str, tray: int, slot: int) -> str:

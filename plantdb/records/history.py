@@ -1,5 +1,6 @@
-"""Reading the audit history: the changes of a closure, a cable or a circuit, and the last
-change of one thing (named when an edit is refused because someone changed it first).
+"""Reading the audit history: the changes of a closure, a cable, a circuit, a panel, a
+structure or a span, and the last change of one thing (named when an edit is refused because
+someone changed it first).
 """
 
 from __future__ import annotations
@@ -11,15 +12,32 @@ from sqlalchemy import ColumnElement, or_, select
 from sqlalchemy.orm import Session
 
 from plantdb.errors import NotFound, PlantError
-from plantdb.model import Cable, Change, Circuit, Closure
+from plantdb.model import Cable, Change, Circuit, Closure, Panel, Span, Structure
 
-KINDS = ("closure", "cable", "circuit")
+KINDS = ("closure", "cable", "circuit", "panel", "structure", "span")
 VERBS = {"insert": "added", "update": "changed", "delete": "removed"}
-_TABLES: dict[str, Any] = {"closure": Closure, "cable": Cable, "circuit": Circuit}
+_TABLES: dict[str, Any] = {
+    "closure": Closure,
+    "cable": Cable,
+    "circuit": Circuit,
+    "panel": Panel,
+    "structure": Structure,
+    "span": Span,
+}
+# kind -> the columns of `change` naming a thing of that kind (any of them).
+_CONCERNING: dict[str, tuple[Any, ...]] = {
+    "closure": (Change.closure_id,),
+    # A splice concerns both its cables, a jumper both its panels: either column, each indexed.
+    "cable": (Change.cable_id, Change.other_cable_id),
+    "circuit": (Change.circuit_id,),
+    "panel": (Change.panel_id, Change.other_panel_id),
+    "structure": (Change.structure_id,),
+    "span": (Change.span_id,),
+}
 
 
 def target_id(session: Session, kind: str, label: str) -> int:
-    """The id of the closure, cable or circuit labelled `label`."""
+    """The id of the thing of this kind (closure, cable, circuit...) labelled `label`."""
     if kind not in _TABLES:
         raise PlantError(f"history is kept by {', '.join(KINDS)}, not {kind!r}")
     table = _TABLES[kind]
@@ -30,12 +48,8 @@ def target_id(session: Session, kind: str, label: str) -> int:
 
 
 def concerning(kind: str, thing_id: int) -> ColumnElement[bool]:
-    """The condition selecting the changes that concern one closure, cable or circuit."""
-    if kind == "cable":
-        # A splice concerns both its cables: either column, each indexed.
-        return or_(Change.cable_id == thing_id, Change.other_cable_id == thing_id)
-    column = Change.closure_id if kind == "closure" else Change.circuit_id
-    return column == thing_id
+    """The condition selecting the changes that concern one thing of a kind with a history."""
+    return or_(*(column == thing_id for column in _CONCERNING[kind]))
 
 
 def change_document(change: Change) -> dict[str, Any]:
@@ -62,8 +76,8 @@ def history_document(
     latest: int | None = None,
     skip: int = 0,
 ) -> dict[str, Any]:
-    """The changes of a closure, cable or circuit, oldest first; with `latest`, only the
-    newest N (after skipping the newest `skip`), newest first."""
+    """The changes of a closure, cable, circuit, panel, structure or span, oldest first; with
+    `latest`, only the newest N (after skipping the newest `skip`), newest first."""
     thing_id = target_id(session, kind, label)
     query = select(Change).where(concerning(kind, thing_id))
     if since is not None:
@@ -103,7 +117,7 @@ def last_change(
     session: Session, entity: str, entity_id: int, within: tuple[str, int]
 ) -> Change | None:
     """The latest recorded change of one thing, looked for among the changes of the closure,
-    cable or circuit (kind, id) it belongs to (so on an index, not the whole history)."""
+    cable, circuit... (kind, id) it belongs to (so on an index, not the whole history)."""
     return session.scalar(
         select(Change)
         .where(concerning(*within), Change.entity == entity, Change.entity_id == entity_id)

@@ -13,20 +13,31 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import func, select, text, update
+from alembic import command
+from sqlalchemy import func, inspect, select, text, update
 
 from plantdb import audit
 from plantdb.audit import ChangeRow, acting_as, current_actor, record_changes
 from plantdb.bulk import COPY_ROWS
-from plantdb.db import Database, run_in_transaction
+from plantdb.db import Database, _alembic_config, run_in_transaction, upgrade_schema
 from plantdb.errors import PlantError
-from plantdb.model import Cable, Change, ChangeAction, Circuit, Closure, Splice
+from plantdb.model import (
+    Cable,
+    Change,
+    ChangeAction,
+    Circuit,
+    Closure,
+    Panel,
+    Span,
+    Splice,
+    Structure,
+)
 from plantdb.records.bundle import BundleError, load_bundle
 from plantdb.records.circuit_status import set_circuit_status
 from plantdb.records.splice_edits import move_splices, remove_splices
 from plantdb.records.splicing import SpliceRequest, end_group, record_splices
 from tests.conftest import PlantCli
-from tests.networks import ashgrove, larkspur
+from tests.networks import Bundle, ashgrove, larkspur
 
 
 def history(database: Database, **where: Any) -> list[Change]:
@@ -123,6 +134,57 @@ def test_routes_splitters_jumpers_and_loss_tests_are_in_the_history(database: Da
     termination = by_label["F-1:1 on CO-P1:1"]
     assert termination.entity == "termination"
     assert termination.cable_id == id_of(database, Cable, "F-1")
+
+
+def office() -> Bundle:
+    """ashgrove with a second panel CO-P2, a switch SW-1 and a splitter PS-1 at the office
+    AG-CO: jumpers CO-P1:10 to CO-P2:10 (panel to panel) and CO-P2:11 to SW-1:1 (to gear)."""
+    town = ashgrove().panel("CO-P2", "AG-CO").equipment("SW-1", "AG-CO", ["1"])
+    town.splitter("PS-1", "CO-P2", "1x2")
+    return town.jumper("CO-P1:10", "CO-P2:10").jumper("CO-P2:11", "SW-1:1")
+
+
+CONCERNS = ("panel_id", "other_panel_id", "structure_id", "span_id")
+
+
+def concerns(database: Database) -> dict[str, tuple[int | None, ...]]:
+    """What each change row concerns among panels, structures and spans, by its label."""
+    return {row.label: tuple(getattr(row, c) for c in CONCERNS) for row in history(database)}
+
+
+def test_changes_name_the_panels_structures_and_spans_they_concern(database: Database) -> None:
+    run_in_transaction(database, lambda s: load_bundle(s, office().data))
+    p1, p2 = id_of(database, Panel, "CO-P1"), id_of(database, Panel, "CO-P2")
+    office_id = id_of(database, Structure, "AG-CO")
+    found = concerns(database)
+    assert found["panel CO-P1"] == (p1, None, office_id, None)
+    assert found["structure AG-CO"] == (None, None, office_id, None)
+    assert found["span S4"] == (None, None, None, id_of(database, Span, "S4"))
+    assert found["closure AC-1"] == (None, None, id_of(database, Structure, "AH-1"), None)
+    assert found["equipment SW-1"] == (None, None, office_id, None)
+    assert found["F-1:3 on CO-P1:3"] == (p1, None, None, None)
+    assert found["jumper CO-P1:10 to CO-P2:10"] == (p1, p2, None, None)
+    assert found["jumper CO-P2:11 to SW-1:1"] == (p2, None, None, None)
+    assert found["splitter PS-1"] == (p2, None, None, None)
+    assert found["cable F-1"] == (None, None, None, None)
+
+
+def test_the_upgrade_fills_in_what_earlier_changes_concern(database: Database) -> None:
+    """A database recorded before the history named panels, structures and spans gets them
+    from its record on upgrade, the same as the services now write them."""
+    run_in_transaction(database, lambda s: load_bundle(s, office().data))
+    written = concerns(database)
+    config = _alembic_config(database.engine)
+    database.engine.dispose()
+    try:
+        command.downgrade(config, "0007")
+        with database.engine.connect() as connection:
+            columns = {c["name"] for c in inspect(connection).get_columns("change")}
+        assert not columns & set(CONCERNS)
+    finally:
+        upgrade_schema(database.engine)
+    assert concerns(database) == written
+    assert any(value is not None for row in written.values() for value in row)
 
 
 def test_a_refused_bundle_writes_no_history(yard: Database) -> None:
@@ -343,3 +405,39 @@ def test_history_of_a_circuit_and_the_refusals(database: Database, plant: PlantC
     bad_date = plant("history", "--cable", "F-1", "--since", "last week")
     assert bad_date.exit_code == 2 and "Traceback" not in bad_date.output
     assert json.loads(plant("history", "--cable", "D-1", "--json").stdout)["changes"]
+
+
+def test_history_of_a_panel_a_structure_and_a_span(database: Database, plant: PlantCli) -> None:
+    run_in_transaction(database, lambda s: load_bundle(s, office().data))
+
+    def labels(*args: str) -> list[str]:
+        return [c["label"] for c in plant.json("history", *args)["changes"]]
+
+    terminations = [f"F-1:{n} on CO-P1:{n}" for n in range(1, 9)]
+    assert labels("--panel", "CO-P1") == [
+        "panel CO-P1",
+        *terminations,
+        "jumper CO-P1:10 to CO-P2:10",
+    ]
+    # A jumper is in the history of both its panels; a splitter in that of its panel.
+    assert labels("--panel", "CO-P2") == [
+        "panel CO-P2",
+        "splitter PS-1",
+        "jumper CO-P1:10 to CO-P2:10",
+        "jumper CO-P2:11 to SW-1:1",
+    ]
+    assert labels("--structure", "AG-CO") == [
+        "structure AG-CO",
+        "panel CO-P1",
+        "panel CO-P2",
+        "equipment SW-1",
+    ]
+    assert labels("--span", "S2") == ["span S2"]
+    text = plant("history", "--panel", "CO-P2").stdout
+    assert text.startswith("history of panel CO-P2: 4 change(s)")
+    assert "CO-P1:10 to CO-P2:10" in text  # a jumper's details: what it joins
+    unknown = plant("history", "--span", "S9")
+    assert unknown.exit_code == 1 and unknown.stderr == "plantdb: no span is labelled S9\n"
+    both = plant("history", "--panel", "CO-P1", "--structure", "AG-CO")
+    assert both.exit_code == 2
+    assert "--panel LABEL, --structure LABEL or --span LABEL" in both.stderr

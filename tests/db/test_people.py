@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+from pathlib import Path
 
 import pytest
 from sqlalchemy import func, select
@@ -208,12 +209,61 @@ def test_the_right_password_from_a_fresh_address_always_gets_in(database: Databa
     for n in range(40):
         _fail(database, "ann", f"203.0.113.{n}", now - dt.timedelta(minutes=2), 1)
     assert _wait(database, "ann", "203.0.113.66", now) > 60
-    assert _wait(database, "ann", "203.0.113.5", now) > 0  # failed here before: slowed too
+    # One failure here: within its own free tries, so the failures elsewhere do not count.
+    assert _wait(database, "ann", "203.0.113.5", now) == 0
     result = try_sign_in(database, "ann", PASSWORD, "192.0.2.200")
     assert result.ok, result
     blocked = try_sign_in(database, "ann", PASSWORD, "203.0.113.66")
     assert not blocked.ok and blocked.retry_after > 60
     assert blocked.reason == "waiting after failures"
+
+
+def test_a_typo_at_her_desk_and_guessing_elsewhere_do_not_keep_her_out(
+    database: Database,
+) -> None:
+    _add(database, "ann")
+    desk = "192.0.2.10"
+    typo = try_sign_in(database, "ann", "heron-lock 7 quya", desk)
+    assert (typo.ok, typo.reason) == (False, "wrong password")
+    # Then 30 guesses at her password from 10 other addresses, three from each.
+    now = dt.datetime.now(dt.UTC)
+    guessers = [f"203.0.113.{n}" for n in range(10)]
+    for address in guessers:
+        _fail(database, "ann", address, now - dt.timedelta(seconds=20), 3)
+    assert _wait(database, "ann", desk, dt.datetime.now(dt.UTC)) == 0
+    result = try_sign_in(database, "ann", PASSWORD, desk)
+    assert result.ok, result
+    # The guessers are past their own free tries: the name's count (31 failures) slows them
+    # far beyond their own pair's wait (1 s after three failures).
+    assert _wait(database, "ann", guessers[0], now) > 60
+    # A guesser on a fresh address is not slowed by the name's count: guessing spread over
+    # many addresses costs one new address every three tries.
+    assert _wait(database, "ann", "198.51.100.200", now) == 0
+
+
+def test_only_her_own_failures_count_where_she_signed_in_lately(database: Database) -> None:
+    _add(database, "ann")
+    desk = "192.0.2.11"
+    now = dt.datetime.now(dt.UTC)
+    run_in_transaction(
+        database,
+        lambda s: s.add(
+            SignInAttempt(account="ann", address=desk, at=now - dt.timedelta(hours=3), ok=True)
+        ),
+    )
+    for n in range(20):
+        _fail(database, "ann", f"203.0.113.{n}", now - dt.timedelta(minutes=1), 5)
+    # Four typos at her desk: past the pair's three free tries, so its own wait (2 s after
+    # the fourth), but not the name's, which 100 failures elsewhere have made 15 minutes.
+    _fail(database, "ann", desk, now - dt.timedelta(seconds=30), 4)
+    assert _wait(database, "ann", desk, now - dt.timedelta(seconds=27)) == 2
+    assert _wait(database, "ann", desk, now) == 0
+    assert _wait(database, "ann", "203.0.113.3", now) > 10 * 60
+    # A sign-in more than a day old makes the address a stranger again.
+    stale = now + dt.timedelta(hours=22)
+    _fail(database, "ann", "203.0.113.40", stale - dt.timedelta(minutes=2), 30)
+    _fail(database, "ann", desk, stale - dt.timedelta(minutes=1), 3)
+    assert _wait(database, "ann", desk, stale) > 60
 
 
 def test_one_address_trying_many_names_is_slowed(database: Database) -> None:
@@ -230,17 +280,59 @@ def test_the_user_commands(plant: PlantCli) -> None:
     assert added.exit_code == 0, added.output
     assert added.stdout.strip() == "added ann (clerk)"
     assert PASSWORD not in added.output
-    token = plant("token", "add", "ann").stdout.strip()
+    # Someone exists now: changing people takes an administrator's token, or the database
+    # owner's word (--database-owner), as every command that writes does.
+    token = plant("token", "add", "ann", "--database-owner").stdout.strip()
     assert token.startswith("pdb_")
     listed = plant.json("user", "list")["people"]
     assert [(p["name"], p["role"], p["disabled"], p["tokens"]) for p in listed] == [
         ("ann", "clerk", False, 1)
     ]
-    assert plant("user", "disable", "ann").exit_code == 0
+    assert plant("user", "disable", "ann", "--database-owner").exit_code == 0
     assert plant.json("user", "list")["people"][0]["disabled"] is True
     assert plant("user", "list").stdout.strip() == "ann  clerk  disabled"
-    again = plant("token", "add", "ann", "--json")
+    again = plant("--database-owner", "token", "add", "ann", "--json")
     assert again.exit_code == 1 and "disabled" in again.stderr
+
+
+def _security_lines(text: str) -> list[str]:
+    return [line for line in text.splitlines() if line.startswith("plantdb.security ")]
+
+
+def test_the_people_commands_write_the_security_log(
+    plant: PlantCli, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    assert plant("init").exit_code == 0
+    added = plant("user", "add", "ann", "--role", "clerk", input=PASSWORD + "\n")
+    assert added.exit_code == 0, added.output
+    (line,) = _security_lines(added.stderr)
+    assert line.startswith("plantdb.security INFO person added at=")
+    assert 'from="command line" what="ann" role="clerk"' in line
+    assert PASSWORD not in added.stderr
+    assert added.stdout.strip() == "added ann (clerk)"  # standard output keeps the answer only
+    # With $PLANTDB_SECURITY_LOG, where `plantdb serve` writes its log, appended to.
+    log = tmp_path / "security.log"
+    monkeypatch.setenv("PLANTDB_SECURITY_LOG", str(log))
+    token = plant("token", "add", "ann", "--database-owner")
+    assert plant("user", "disable", "ann", "--database-owner").exit_code == 0
+    assert not _security_lines(token.stderr)
+    assert token.stdout.strip().startswith("pdb_")
+    lines = _security_lines(log.read_text(encoding="utf-8"))
+    owner = [line for line in lines if "database owner acts as administrator" in line]
+    assert len(owner) == 2 and all(" WARNING " in line for line in owner)
+    assert 'what="token add"' in owner[0] and 'what="user disable"' in owner[1]
+    token_line, disabled_line = [line for line in lines if line not in owner]
+    assert token_line.startswith("plantdb.security INFO token added at=")
+    assert 'what="ann"' in token_line and token.stdout.strip() not in token_line
+    assert disabled_line.startswith("plantdb.security INFO person disabled at=")
+    # A log that cannot be written is refused before anything changes.
+    monkeypatch.setenv("PLANTDB_SECURITY_LOG", str(tmp_path / "no such folder" / "x.log"))
+    refused = plant(
+        "user", "add", "bo", "--role", "viewer", "--database-owner", input=PASSWORD + "\n"
+    )
+    assert refused.exit_code == 1 and "no such folder" in refused.stderr
+    monkeypatch.delenv("PLANTDB_SECURITY_LOG")
+    assert [p["name"] for p in plant.json("user", "list")["people"]] == ["ann"]
 
 
 @pytest.mark.parametrize(

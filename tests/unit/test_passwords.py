@@ -5,6 +5,8 @@ from __future__ import annotations
 import logging
 
 import pytest
+from argon2 import Type, extract_parameters
+from argon2.profiles import RFC_9106_LOW_MEMORY
 
 from plantdb.errors import PlantError
 from plantdb.passwords import (
@@ -62,6 +64,24 @@ def test_hashes_are_argon2id_salted_and_verify_only_the_right_password() -> None
     assert not verify_password("not a hash", "lantern marsh 42")
     assert not needs_rehash(first)
     assert needs_rehash("$argon2id$v=19$m=1024,t=1,p=1$c29tZXNhbHQ$aGFzaGhhc2hoYXNo")
+
+
+def test_hashing_parameters_meet_the_published_minimums() -> None:
+    """Read back from a stored hash (its PHC string), so the test sees what is really used."""
+    used = extract_parameters(hash_password("lantern marsh 42"))
+    assert used.type is Type.ID
+    # OWASP Password Storage Cheat Sheet, Argon2id: at least m=19 MiB (19456 KiB), t=2, p=1
+    # (from memory). Its alternatives trade memory for passes; meeting both is stricter.
+    assert used.memory_cost >= 19 * 1024
+    assert used.time_cost >= 2
+    assert used.parallelism >= 1
+    # RFC 9106 §4, the second recommended option for memory-constrained settings: argon2id,
+    # t=3, p=4, m=64 MiB, a 128-bit salt and a 256-bit tag (from memory); argon2-cffi ships
+    # it as RFC_9106_LOW_MEMORY. RFC 9106 §3.1: version 0x13 (19).
+    assert (used.time_cost, used.parallelism, used.memory_cost) == (3, 4, 64 * 1024)
+    assert used.salt_len >= 16 and used.hash_len >= 32
+    assert used.version == 19
+    assert used == RFC_9106_LOW_MEMORY
 
 
 def test_log_values_cannot_forge_a_line_or_a_field() -> None:

@@ -169,5 +169,31 @@ def test_openapi_describes_every_api_route(client: FlaskClient, demo_app: Any) -
     assert trace_parameters == {"port", "fiber", "circuit"}
 
 
+def test_openapi_describes_how_to_authenticate_and_each_refusal(client: FlaskClient) -> None:
+    document = _json(client, "/api/v1/openapi.json")
+    (name, scheme), *others = document["components"]["securitySchemes"].items()
+    assert not others
+    assert (scheme["type"], scheme["scheme"]) == ("http", "bearer")
+    assert "plantdb token add" in scheme["description"]
+    assert "session cookie" in scheme["description"]
+    # A token, or (with nobody defined, from this machine) nothing at all.
+    assert document["security"] == [{name: []}, {}]
+    for path, item in document["paths"].items():
+        for method, operation in item.items():
+            answers = operation["responses"]
+            assert {"200", "400", "401", "403", "422"} <= set(answers), (path, method)
+            assert "WWW-Authenticate" in answers["401"]["headers"]
+            for status, answer in answers.items():
+                assert answer["description"], (path, method, status)
+    splices = document["paths"]["/splices"]["post"]["responses"]
+    assert {"201", "409", "413"} <= set(splices)
+    assert "role" in splices["403"]["description"]
+    assert "nothing was written" in splices["409"]["description"]
+    assert "larger" in splices["413"]["description"]
+    # Only the route that reads a body can be refused for its size or lose a race.
+    reads = document["paths"]["/trace"]["get"]["responses"]
+    assert "409" not in reads and "413" not in reads
+
+
 def test_api_index_points_at_the_description(client: FlaskClient) -> None:
     assert _json(client, "/api/v1/")["openapi"] == "/api/v1/openapi.json"

@@ -1,6 +1,7 @@
-"""History in the browser: the recent-changes panel of closure, cable and circuit pages, the
-full history, a closure's sheet as recorded on a day, and corrections made from a page that is
-no longer current refused with 409 instead of overwriting someone else's change."""
+"""History in the browser: the recent-changes panel of closure, cable, circuit, panel,
+structure and span pages, the full history, a closure's sheet as recorded on a day, and
+corrections made from a page that is no longer current refused with 409 instead of
+overwriting someone else's change."""
 
 from __future__ import annotations
 
@@ -68,6 +69,39 @@ def test_pages_show_their_recent_changes(yard: FlaskClient) -> None:
     assert "circuit W-CKT" in circuit[circuit.index('<section id="history"') :]
 
 
+def recent(page: str) -> str:
+    """The recent-changes panel of a page."""
+    return page[page.index('<section id="history"') :].split("</section>")[0]
+
+
+def test_panel_structure_and_span_pages_show_their_recent_changes(make_app: Any) -> None:
+    """A panel's history holds it, its terminations, its splitters and the jumpers on its
+    ports (either end); a structure's, it and what stands in it; a span's, itself."""
+    yard = splice_yard().panel("WP-4", "WY-CO").splitter("WS-2", "WP-4", "1x2")
+    yard.jumper("WP-1:5", "WP-4:5")
+    client: FlaskClient = make_app(yard).test_client()
+    panel = recent(text_of(client.get("/panels/WP-1")))
+    assert "panel WP-1" in panel and "W-A:1 on WP-1:1" in panel
+    assert "jumper WP-1:5 to WP-4:5" in panel and "WP-1:5 to WP-4:5" in panel  # its details
+    assert "WS-2" not in panel and "W-B:1 on WP-2:1" not in panel
+    assert 'href="/history/panel/WP-1"' in panel
+    other = recent(text_of(client.get("/panels/WP-4")))
+    assert "jumper WP-1:5 to WP-4:5" in other and "splitter WS-2" in other
+    office = recent(text_of(client.get("/structures/WY-CO")))
+    assert "structure WY-CO" in office and "panel WP-1" in office and "panel WP-4" in office
+    assert "closure WC-1" not in office  # it stands in the manhole
+    span = recent(text_of(client.get("/spans/WY-1")))
+    assert "span WY-1" in span and "cable" not in span
+    full = text_of(client.get("/history/panel/WP-4"))
+    assert '<h1>History of panel <a href="/panels/WP-4">WP-4</a></h1>' in full
+    assert '"a": "WP-1:5"' in full  # the jumper's values as it was added
+    assert "plantdb history --panel WP-4" in full
+    for url in ("/history/structure/WY-MH", "/history/span/WY-3"):
+        assert client.get(url).status_code == 200, url
+    for url in ("/history/panel/NO-P", "/history/structure/NO-S", "/history/span/NO-SPAN"):
+        assert client.get(url).status_code == 404, url
+
+
 def test_the_full_history_page(yard: FlaskClient, db_url: str) -> None:
     date_changes(db_url, dt.datetime(2026, 4, 1, 8, 15))
     yard.post("/circuits/W-CKT/status", data={"status": "reserved", "version": "1"})
@@ -79,7 +113,7 @@ def test_the_full_history_page(yard: FlaskClient, db_url: str) -> None:
     assert "status active -> reserved" in recent and "2026-04-01" not in recent
     assert yard.get("/history/circuit/NO-CKT").status_code == 404
     assert yard.get("/history/circuit/W-CKT?since=April").status_code == 400
-    assert yard.get("/history/span/WY-1").status_code == 404
+    assert yard.get("/history/route/WY-1").status_code == 404  # routes keep no history page
 
 
 def test_the_sheet_as_recorded_on_a_day(yard: FlaskClient, db_url: str) -> None:

@@ -3,7 +3,9 @@ cannot serve, and keeps the core package free of the web app."""
 
 from __future__ import annotations
 
+import html
 import json
+import re
 import subprocess
 import sys
 from collections.abc import Iterator
@@ -107,3 +109,19 @@ def test_core_package_does_not_import_the_web_app() -> None:
         [sys.executable, "-c", code], capture_output=True, text=True, check=True
     )
     assert result.stdout.split() == ["False", "False"]
+
+
+def test_the_tile_url_option_reaches_the_maps_of_the_pages(
+    db_url: str, served: dict[str, Any], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """--tile-url (over $PLANTDB_TILE_URL) and --tile-attribution end in the map's settings."""
+    monkeypatch.setenv("PLANTDB_TILE_URL", "https://other.invalid/{z}/{x}/{y}.png")
+    tiles = "https://tiles.invalid/{z}/{x}/{y}.png"
+    argv = ["serve", "--db", db_url, "--tile-url", tiles, "--tile-attribution", "© Tile Guild"]
+    result = CliRunner().invoke(cli, argv)
+    assert result.exit_code == 0, result.output
+    page = served["app"].test_client().get("/").get_data(as_text=True)
+    found = re.search(r'data-map="plant" data-settings=\'([^\']*)\'', page)
+    assert found is not None
+    settings = json.loads(html.unescape(found.group(1)))
+    assert (settings["tile_url"], settings["tile_attribution"]) == (tiles, "© Tile Guild")

@@ -64,6 +64,49 @@ def test_with_nobody_defined_only_this_machine_is_answered(client: FlaskClient) 
     assert client.get("/", environ_base={"REMOTE_ADDR": "::1"}).status_code == 200
 
 
+# What a reverse proxy on this machine adds: its own connection comes from 127.0.0.1.
+THROUGH_A_PROXY = [
+    {"X-Forwarded-For": "198.51.100.23"},
+    {"X-Forwarded-For": "127.0.0.1"},
+    {"Forwarded": "for=198.51.100.23;proto=https"},
+    {"X-Real-IP": "198.51.100.23"},
+    {"X-Forwarded-Host": "plant.example", "X-Forwarded-Proto": "https"},
+]
+
+
+@pytest.mark.parametrize("headers", THROUGH_A_PROXY)
+def test_with_nobody_defined_a_request_through_an_undeclared_proxy_is_refused(
+    client: FlaskClient, headers: dict[str, str], caplog: pytest.LogCaptureFixture
+) -> None:
+    with caplog.at_level(logging.INFO, logger=LOGGER_NAME):
+        page = client.get("/", headers=headers)
+    assert page.status_code == 403 and "answers only its own machine" in page_text(page)
+    (line,) = _security_lines(caplog)
+    assert 'from="127.0.0.1"' in line and "came through a proxy" in line
+    api = client.get("/api/v1/bundle", headers=headers)
+    assert api.status_code == 403 and "plantdb user add" in api.get_json()["error"]
+    assert client.get("/api/v1/bundle").status_code == 200  # the same machine, directly
+
+
+def test_with_nobody_defined_behind_a_declared_proxy_the_forwarded_client_decides(
+    make_app: Callable[..., Flask],
+) -> None:
+    client = make_app(splice_yard(), BEHIND_PROXY=1).test_client()
+    outside = {"X-Forwarded-For": "198.51.100.23", "X-Forwarded-Proto": "https"}
+    for url in ("/", "/api/v1/bundle"):
+        assert client.get(url, headers=outside).status_code == 403, url
+        here = {"X-Forwarded-For": "127.0.0.1"}
+        assert client.get(url, headers=here).status_code == 200, url
+        # A client's own X-Forwarded-For is kept, the proxy's address for it added last: only
+        # the last one is trusted.
+        forged = {"X-Forwarded-For": "127.0.0.1, 198.51.100.23"}
+        assert client.get(url, headers=forged).status_code == 403, url
+        # A proxy that names its client only in a header ProxyFix does not read.
+        unread = {"Forwarded": "for=198.51.100.23"}
+        assert client.get(url, headers=unread).status_code == 403, url
+        assert client.get(url).status_code == 200, url  # straight from this machine
+
+
 def test_once_someone_exists_everything_needs_a_person(closed: Flask) -> None:
     client = closed.test_client()
     page = client.get("/closures/WC-1?x=1")
@@ -124,6 +167,57 @@ def test_cookies_are_secure_over_tls_or_when_told(
     assert "max-age=31536000" in answer.headers["Strict-Transport-Security"]
     forced = make_app(FORCE_SECURE_COOKIES=True).test_client()
     assert "Secure" in sign_in(forced, "ann").headers["Set-Cookie"]
+
+
+def test_behind_a_proxy_the_forwarded_client_is_logged_and_limited(
+    make_app: Callable[..., Flask], db_url: str, caplog: pytest.LogCaptureFixture
+) -> None:
+    slow = Limits(first_wait=dt.timedelta(minutes=1))
+    app = make_app(splice_yard(), BEHIND_PROXY=1, SIGN_IN_LIMITS=slow)
+    add_person_to(db_url, "ann", "clerk")
+    add_person_to(db_url, "vic", "viewer")
+    first = {"X-Forwarded-For": "203.0.113.9"}
+    second = {"X-Forwarded-For": "203.0.113.10"}
+    client = app.test_client()
+    with caplog.at_level(logging.INFO, logger=LOGGER_NAME):
+        for _ in range(3):
+            assert sign_in(client, "ann", "wrong guess 1", headers=first).status_code == 401
+        assert sign_in(client, "ann", headers=first).status_code == 429
+        assert sign_in(client, "vic", headers=second).status_code == 303
+        refused = client.post("/circuits/W-CKT/status", data={"status": "retired"}, headers=second)
+    assert refused.status_code == 403
+    lines = _security_lines(caplog)
+    assert len(lines) == 6
+    assert all('from="203.0.113.9"' in line for line in lines[:4]), lines
+    assert all('from="203.0.113.10"' in line for line in lines[4:]), lines
+    assert not any("127.0.0.1" in line for line in lines)
+    # The limit is the forwarded client's: another client through the same proxy gets in.
+    assert sign_in(app.test_client(), "ann", headers=second).status_code == 303
+    # Without --behind-proxy the headers are ignored: every client is the proxy's address.
+    plain = make_app(SIGN_IN_LIMITS=slow).test_client()
+    elsewhere = {"X-Forwarded-For": "203.0.113.11"}
+    for _ in range(3):
+        assert sign_in(plain, "ann", "wrong guess 2", headers=elsewhere).status_code == 401
+    assert sign_in(plain, "ann", headers={"X-Forwarded-For": "203.0.113.12"}).status_code == 429
+
+
+def test_behind_a_proxy_cookies_are_secure_when_it_says_https(
+    closed: Flask, make_app: Callable[..., Flask]
+) -> None:
+    proxied = make_app(BEHIND_PROXY=1).test_client()
+    # Over TLS the CSRF check also wants the browser's same-origin Referer.
+    tls = {"X-Forwarded-Proto": "https", "Referer": "https://localhost/sign-in"}
+    answer = sign_in(proxied, "ann", headers=tls)
+    assert answer.status_code == 303
+    assert "Secure" in answer.headers["Set-Cookie"]
+    assert "max-age=31536000" in answer.headers["Strict-Transport-Security"]
+    plain = {"X-Forwarded-Proto": "http"}
+    answer = sign_in(proxied, "ann", headers=plain)
+    assert answer.status_code == 303 and "Secure" not in answer.headers["Set-Cookie"]
+    # Without --behind-proxy the header is ignored: the request came over plain HTTP.
+    answer = sign_in(closed.test_client(), "ann", headers={"X-Forwarded-Proto": "https"})
+    assert answer.status_code == 303 and "Secure" not in answer.headers["Set-Cookie"]
+    assert "Strict-Transport-Security" not in answer.headers
 
 
 def test_after_sign_in_only_a_path_on_this_server_is_followed(closed: Flask) -> None:
