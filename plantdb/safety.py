@@ -29,3 +29,8 @@ IMPACT_CAUTION = (
     "Circuits listed come from the record's paths; confirm affected services with the network "
     "operations centre and the equipment's own alarms before telling customers. " + FIELD_VERIFY
 )
+
+TRACE_CAUTION = (
+    "Lit marks come from the record's active circuits: a strand not marked lit may still carry "
+    "light (a test set, an unrecorded patch, a record behind the field). " + FIELD_VERIFY
+)

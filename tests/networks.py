@@ -264,3 +264,52 @@ def larkspur() -> Bundle:
     b.terminate("LS-2:1", "LK-MP:1")
     b.splice("LC-1", "C-A:48", "C-B:48", tray=2, slot=24, loss_db=0.04)
     return b
+
+
+def long_route(
+    first_m: float = 60_000.0,
+    second_m: float = 60_000.0,
+    role: str = "regenerator",
+    middle_optics: bool = True,
+) -> Bundle:
+    """A long route EAST -> MID -> WEST with active gear in the middle, circuit LONG.
+
+    Terminal TE at office EAST and TW at office WEST (launch +2.0 dBm, sensitivity -18.0 dBm:
+    a 20 dB budget, invented optics). Cable LH-1 (`first_m`) runs from panel PE to PM1 at hut
+    MID, LH-2 (`second_m`) from PM2 to PW; both strands 1 are pigtail-spliced at each panel
+    (the default termination). The gear in MID (`REGEN` for role "regenerator", `AMP` for
+    "amplifier") is patched PM1:1 -> west, east -> PM2:1, with the same optics as the ends
+    when `middle_optics`, else none recorded.
+    """
+    gear = {"regenerator": "REGEN", "amplifier": "AMP"}[role]
+    optics: dict[str, Any] = {"tx_dbm": 2.0, "rx_sensitivity_dbm": -18.0}
+    b = Bundle().fiber_type(SINGLE_MODE)
+    b.structure("EAST", 0, kind="central_office").structure("MID", first_m, kind="hut")
+    b.structure("WEST", first_m + second_m, kind="central_office")
+    b.span("E-M", "EAST", "MID", first_m).span("M-W", "MID", "WEST", second_m)
+    b.panel("PE", "EAST").panel("PM1", "MID").panel("PM2", "MID").panel("PW", "WEST")
+    b.cable("LH-1", ["E-M"], [("PE", 0.0), ("PM1", first_m)])
+    b.cable("LH-2", ["M-W"], [("PM2", 0.0), ("PW", second_m)])
+    b.terminate("LH-1:1", "PE:1").terminate("LH-1:1", "PM1:1")
+    b.terminate("LH-2:1", "PM2:1").terminate("LH-2:1", "PW:1")
+    b.equipment("TE", "EAST", ["1"], **optics)
+    b.equipment("TW", "WEST", ["1"], **optics)
+    b.equipment(gear, "MID", ["west", "east"], role=role, **(optics if middle_optics else {}))
+    b.jumper("TE:1", "PE:1").jumper("PM1:1", f"{gear}:west").jumper(f"{gear}:east", "PM2:1")
+    b.jumper("PW:1", "TW:1")
+    b.circuit("LONG", "TE:1", "TW:1")
+    return b
+
+
+def ashgrove_two_input_splitter() -> Bundle:
+    """Ashgrove with a 2x4 splitter SP-2 in AC-1: inputs fed by F-1:6/A and F-1:7/A (both cut
+    at AC-1, so both back to CO-P1:6 and CO-P1:7), leg 1 spliced to drop D-1:2, which is
+    field-connectorised on PR-P1:2."""
+    b = ashgrove()
+    b.splitter("SP-2", "AC-1", "2x4")
+    b.cut("AC-1", "F-1:6").cut("AC-1", "F-1:7")
+    b.splice("AC-1", "F-1:6/A", "SP-2:in", slot=2)
+    b.splice("AC-1", "F-1:7/A", "SP-2:in2", slot=3)
+    b.splice("AC-1", "SP-2:1", "D-1:2", slot=4)
+    b.terminate("D-1:2", "PR-P1:2", method="field_connector")
+    return b

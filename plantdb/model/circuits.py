@@ -35,7 +35,7 @@ class Circuit(Base):
     # Kept by plantdb.trace.circuits whenever the record changes under the circuit: how far
     # the path reaches, and the two ends' addresses (so answers listing hundreds of circuits
     # need not join four tables per circuit to name them).
-    path_state: Mapped[str | None] = mapped_column(String(16))
+    path_state: Mapped[str | None] = mapped_column(String(16), index=True)
     a_address: Mapped[str | None] = mapped_column(String(100))
     z_address: Mapped[str | None] = mapped_column(String(100))
     path_note: Mapped[str | None] = mapped_column(Text)

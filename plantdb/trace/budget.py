@@ -76,6 +76,12 @@ def _sections(
                     for nm, w in losses.items()
                 },
                 "budget_db": budget,
+                "margin_db": None
+                if budget is None
+                else {
+                    nm: {"max": budget - w["max_db"], "typical": budget - w["typical_db"]}
+                    for nm, w in losses.items()
+                },
                 "over_budget": budget is not None and worst > budget,
             }
         )
@@ -95,13 +101,16 @@ def path_loss(reader: PlantReader, counter: LossCounter, path: TracedPath) -> di
         "counts": path_counts(path),
         "length_m": path.length_m,
     }
-    if path.elements:
+    sections = _sections(counter, path, wavelengths)
+    if sections:
+        # Each regenerator or amplifier launches the light again: the optics at the two ends
+        # never see each other, so each section has its own budget and there is no end-to-end
+        # one (it would set the far receiver against the whole route's loss).
+        entry["sections"] = sections
+    elif path.elements:
         power = _power(path.elements[0], path.elements[-1], losses)
         if power:
             entry["power_budget"] = power
-    sections = _sections(counter, path, wavelengths)
-    if sections:
-        entry["sections"] = sections
     return entry
 
 

@@ -87,9 +87,10 @@ def refresh_circuits(session: Session, circuit_ids: Iterable[int] | None = None)
                 state, note = INCOMPLETE, f"the walk from A stops at {stops}"
         if path is not None:
             rows += _items(reader, circuit_id, path)
-        elif state == INCOMPLETE:
-            # A broken circuit still rides everything its A end reaches: keep those steps, so
-            # a cut or an opened closure there still names it.
+        elif state in (INCOMPLETE, NO_Z):
+            # A broken circuit, or one whose Z end was never recorded, still rides everything
+            # its A end reaches: keep those steps, so a cut or an opened closure there still
+            # names it.
             for partial in every:
                 rows += _items(reader, circuit_id, partial)
         states.append(
@@ -185,3 +186,18 @@ def mark_lit(session: Session, paths: list[TracedPath]) -> None:
                 continue
             element.fields["circuits"] = [{"label": lb, "status": st} for lb, st in sorted(on)]
             element.fields["lit"] = any(st == CircuitStatus.ACTIVE.value for _l, st in on)
+
+
+_UNTRACED = (
+    "SELECT label, status, path_note FROM circuit WHERE path_state = ? ORDER BY"
+    " CASE status WHEN 'active' THEN 0 WHEN 'out_of_service' THEN 1 ELSE 2 END, label"
+)
+
+
+def untraced_circuits(sql: RawSql) -> list[dict[str, Any]]:
+    """Circuits whose paths cannot be walked (a records error): no answer can place them, so
+    the dispatcher answers name them rather than leave them out silently."""
+    return [
+        {"label": label, "status": str(status), "note": note}
+        for label, status, note in sql.rows(_UNTRACED, (RECORDS_ERROR,))
+    ]

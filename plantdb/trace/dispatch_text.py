@@ -15,8 +15,35 @@ def _caution(text: str) -> str:
     )
 
 
+# How a circuit's kept path stands, where it is not a complete walk from A to Z.
+_PATH_STATES = {
+    "incomplete": "path broken",
+    "no_z": "no Z end",
+    "records_error": "records error",
+}
+
+
+def _status(circuit: dict[str, Any]) -> str:
+    words = circuit["status"].replace("_", " ")
+    state = _PATH_STATES.get(circuit.get("path_state") or "")
+    return f"{words}, {state}" if state else words
+
+
 def _circuits(strand: dict[str, Any]) -> str:
-    return ", ".join(f"{c['label']} ({c['status'].replace('_', ' ')})" for c in strand["circuits"])
+    return ", ".join(f"{c['label']} ({_status(c)})" for c in strand["circuits"])
+
+
+def _untraced(document: dict[str, Any]) -> list[str]:
+    """A warning naming circuits no answer can place (their paths hit a records error)."""
+    untraced = document.get("untraced_circuits") or []
+    if not untraced:
+        return []
+    names = ", ".join(f"{c['label']} ({c['status'].replace('_', ' ')})" for c in untraced)
+    return [
+        "",
+        f"WARNING: {len(untraced)} circuit(s) cannot be traced because of a records error and"
+        f" may run here: {names}. See `plantdb check`.",
+    ]
 
 
 def _splices(strand: dict[str, Any]) -> str:
@@ -72,6 +99,7 @@ def live_text(document: dict[str, Any]) -> str:
                     ],
                 )
             )
+    out += _untraced(document)
     out.append(_caution(document["caution"]))
     return "\n".join(out)
 
@@ -91,7 +119,7 @@ def impact_text(document: dict[str, Any]) -> str:
                 [
                     [
                         c["label"],
-                        c["status"].replace("_", " "),
+                        _status(c),
                         c["kind"],
                         c["a"],
                         c["z"] or "",
@@ -101,6 +129,7 @@ def impact_text(document: dict[str, Any]) -> str:
                 ],
             )
         )
+    out += _untraced(document)
     out.append(_caution(document["caution"]))
     return "\n".join(out)
 

@@ -40,12 +40,20 @@ def _strand_label(cable: Any, number: Any) -> str:
 
 def _ends_outside_their_station(session: Session) -> list[dict[str, str]]:
     """A splice whose strand end lies at a station that is not in the splice's closure."""
+    at_closure, at_panel = aliased(Closure), aliased(Panel)
     rows = session.execute(
-        select(Cable.label, Strand.number, Closure.label)
+        select(
+            Cable.label,
+            Strand.number,
+            Closure.label,
+            func.coalesce(at_closure.label, at_panel.label),
+        )
         .select_from(FiberEnd)
         .join(Splice, Splice.id == FiberEnd.splice_id)
         .join(Closure, Closure.id == Splice.closure_id)
         .join(Station, Station.id == FiberEnd.station_id)
+        .outerjoin(at_closure, at_closure.id == Station.closure_id)
+        .outerjoin(at_panel, at_panel.id == Station.panel_id)
         .join(Strand, Strand.id == FiberEnd.strand_id)
         .join(Cable, Cable.id == Strand.cable_id)
         .where(func.coalesce(Station.closure_id, -1) != Splice.closure_id)
@@ -54,9 +62,9 @@ def _ends_outside_their_station(session: Session) -> list[dict[str, str]]:
         {
             "kind": "splice_outside_station",
             "what": _strand_label(c, n),
-            "where": f"spliced in {cl}, where its cable has no station",
+            "where": f"spliced in {cl}, but the fiber end it splices lies at {place}",
         }
-        for c, n, cl in rows
+        for c, n, cl, place in rows
     ]
 
 
@@ -95,12 +103,21 @@ def _mid_span_ends_without_cut(session: Session) -> list[dict[str, str]]:
 
 
 def _terminations_off_panel(session: Session) -> list[dict[str, str]]:
+    at_closure, at_panel = aliased(Closure), aliased(Panel)
     rows = session.execute(
-        select(Cable.label, Strand.number, Panel.label, Port.name)
+        select(
+            Cable.label,
+            Strand.number,
+            Panel.label,
+            Port.name,
+            func.coalesce(at_closure.label, at_panel.label),
+        )
         .select_from(FiberEnd)
         .join(Port, Port.id == FiberEnd.port_id)
         .join(Panel, Panel.id == Port.panel_id)
         .join(Station, Station.id == FiberEnd.station_id)
+        .outerjoin(at_closure, at_closure.id == Station.closure_id)
+        .outerjoin(at_panel, at_panel.id == Station.panel_id)
         .join(Strand, Strand.id == FiberEnd.strand_id)
         .join(Cable, Cable.id == Strand.cable_id)
         .where(func.coalesce(Station.panel_id, -1) != Port.panel_id)
@@ -109,9 +126,9 @@ def _terminations_off_panel(session: Session) -> list[dict[str, str]]:
         {
             "kind": "termination_off_panel",
             "what": _strand_label(c, n),
-            "where": f"terminated on {p}:{port}, but its cable does not end at {p}",
+            "where": f"terminated on {p}:{port}, but the fiber end lies at {place}, not {p}",
         }
-        for c, n, p, port in rows
+        for c, n, p, port, place in rows
     ]
 
 

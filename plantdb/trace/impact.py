@@ -14,7 +14,7 @@ from typing import Any
 from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, aliased
 
-from plantdb.errors import NotFound, PlantError
+from plantdb.errors import NotFound, UsageProblem
 from plantdb.model import (
     Cable,
     CableSpan,
@@ -26,6 +26,7 @@ from plantdb.model import (
     Structure,
 )
 from plantdb.safety import IMPACT_CAUTION
+from plantdb.trace.circuits import untraced_circuits
 from plantdb.trace.rawsql import RawSql
 
 ACTIVE = CircuitStatus.ACTIVE.value
@@ -174,7 +175,7 @@ def impact_document(
 ) -> dict[str, Any]:
     """The contract's impact document for a span or a structure (exactly one)."""
     if (span is None) == (structure is None):
-        raise PlantError("give exactly one place: --span LABEL or --structure LABEL")
+        raise UsageProblem("give exactly one place: --span LABEL or --structure LABEL")
     document = _span_impact(session, span) if span else _structure_impact(session, structure or "")
     active = [c for c in document["circuits"] if c["status"] == ACTIVE]
     document["summary"] = {
@@ -182,5 +183,6 @@ def impact_document(
         "active": len(active),
         "customers": sorted({c["customer"] for c in active if c["customer"]}),
     }
+    document["untraced_circuits"] = untraced_circuits(RawSql(session))
     document["caution"] = IMPACT_CAUTION
     return document

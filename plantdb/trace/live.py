@@ -24,6 +24,7 @@ from plantdb.model import (
     Structure,
 )
 from plantdb.safety import CLOSURE_CAUTION
+from plantdb.trace.circuits import untraced_circuits
 from plantdb.trace.rawsql import RawSql
 from plantdb.trace.reader import CableRow, PlantReader
 
@@ -173,5 +174,6 @@ def live_document(session: Session, closure: str) -> dict[str, Any]:
             "live": sum(s["live"] for s in strands),
             **dict(sorted(counts.items())),
         },
+        "untraced_circuits": untraced_circuits(sql),
         "caution": CLOSURE_CAUTION,
     }

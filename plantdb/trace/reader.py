@@ -15,7 +15,7 @@ from typing import Any
 
 from sqlalchemy.orm import Session
 
-from plantdb.errors import NotFound
+from plantdb.errors import NotFound, RecordsError
 from plantdb.trace.rawsql import RawSql
 from plantdb.trace.rows import (
     CableRow,
@@ -111,6 +111,8 @@ SQL = {
     " WHERE s.id = ?",
     "legs": "SELECT id, name FROM splitter_leg WHERE splitter_id = ?",
     "structure_point": "SELECT lon, lat FROM structure WHERE label = ?",
+    "splice_place": "SELECT c.label, y.number, s.slot FROM splice s"
+    " JOIN closure c ON c.id = s.closure_id JOIN tray y ON y.id = s.tray_id WHERE s.id = ?",
 }
 
 
@@ -258,11 +260,19 @@ class PlantReader:
         """The splice holding `end`, and the end on its other side."""
         if end.id not in self._peers:
             r = self.row("other_side", end.splice_id, end.splice_side)
+            if r is None:
+                raise RecordsError(f"{self._splice_place(end.splice_id)} joins only one end")
             self._peers[end.id] = (
                 SpliceRow(r[5], r[9], r[10], r[11], r[12], r[13], r[14]),
                 _end(r),
             )
         return self._peers[end.id]
+
+    def _splice_place(self, splice_id: int | None) -> str:
+        row = self.row("splice_place", splice_id)
+        if row is None:
+            return f"splice {splice_id}"
+        return f"the splice in {row[0]} tray {row[1]} slot {row[2]}"
 
     def termination(self, port_id: int) -> EndRow | None:
         row = self.row("termination", port_id)

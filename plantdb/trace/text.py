@@ -85,6 +85,8 @@ def trace_text(document: dict[str, Any]) -> str:
                 right=(0, 4, 5),
             )
         )
+    out.append("")
+    out.append(f"caution: {document['caution']}")
     return "\n".join(out)
 
 
@@ -134,10 +136,15 @@ def loss_text(document: dict[str, Any]) -> str:
         for section in entry.get("sections", []):
             flag = "  OVER BUDGET" if section["over_budget"] else ""
             worst = max(w["max_db"] for w in section["wavelengths"].values())
+            margin = ""
+            if section.get("margin_db"):
+                margin = "; margin " + ", ".join(
+                    f"{nm} nm {decibels(m['max'])} dB" for nm, m in section["margin_db"].items()
+                )
             out.append(
                 f"section {section['from']} -> {section['to']}: "
                 f"{metres(section['length_m'])} m, up to {decibels(worst)} dB, budget "
-                f"{decibels(section['budget_db']) or 'unknown'}{flag}"
+                f"{decibels(section['budget_db']) or 'unknown'}{margin}{flag}"
             )
     used = document["values_used"]
     out.append("")

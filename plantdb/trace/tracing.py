@@ -12,7 +12,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from plantdb.addresses import parse_address, parse_strand_point
-from plantdb.errors import NotFound, PlantError
+from plantdb.errors import NotFound, PlantError, UsageProblem
+from plantdb.safety import TRACE_CAUTION
 from plantdb.trace.elements import Element, PathEnd, TracedPath
 from plantdb.trace.reader import PlantReader
 from plantdb.trace.walk import Branch, Walker
@@ -33,6 +34,7 @@ class Trace:
             document["circuit"] = self.circuit
         if self.notes:
             document["notes"] = self.notes
+        document["caution"] = TRACE_CAUTION
         return document
 
 
@@ -131,7 +133,12 @@ def circuit_path(
             i, j = len(path.elements) - 1 - i, len(path.elements) - 1 - j
         elements = path.elements[i : j + 1]
         a_el, z_el = elements[0], elements[-1]
-        begin = PathEnd("equipment" if a_el.kind == "equipment" else "open_port", a_el.label)
+        # An end the path goes on past (a patched port) is where the circuit ends, not an
+        # open port; the walk's own end where nothing lies beyond.
+        before = path.begin if i == 0 else None
+        begin = before or PathEnd(
+            "equipment" if a_el.kind == "equipment" else "circuit_end", a_el.label
+        )
         beyond = path.end if j == len(path.elements) - 1 else None
         end = beyond or PathEnd(
             "equipment" if z_el.kind == "equipment" else "circuit_end", z_el.label
@@ -169,7 +176,7 @@ def require_start(port: str | None, fiber: str | None, circuit: str | None) -> t
     """Exactly one of the three starts, as (kind, value)."""
     given = [(k, v) for k, v in (("port", port), ("fiber", fiber), ("circuit", circuit)) if v]
     if len(given) != 1:
-        raise PlantError(
+        raise UsageProblem(
             "give exactly one start: --port PANEL:PORT, --fiber CABLE:STRAND or --circuit LABEL"
         )
     return given[0]

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from plantdb.safety import FIELD_VERIFY, TRACE_CAUTION
 from tests.conftest import PlantCli
 from tests.networks import ashgrove
 
@@ -39,6 +40,16 @@ def test_trace_json_is_the_contract_document(plant: PlantCli, tmp_path: Path) ->
         assert key in fiber
 
 
+def test_a_trace_says_to_verify_in_the_field(plant: PlantCli, tmp_path: Path) -> None:
+    """A trace marks strands lit or not: an unlit mark is never a clearance, so the document
+    and the text end with the field-verification caution."""
+    _load(plant, tmp_path, ashgrove().data)
+    document = plant.json("trace", "--circuit", "AG-2")
+    assert document["caution"] == TRACE_CAUTION and FIELD_VERIFY in TRACE_CAUTION
+    text = plant("trace", "--fiber", "F-1:7").stdout
+    assert " ".join(text.split()).endswith(" ".join(f"caution: {TRACE_CAUTION}".split()))
+
+
 def test_loss_command_prints_both_bases(plant: PlantCli, tmp_path: Path) -> None:
     _load(plant, tmp_path, ashgrove().data)
     document = plant.json("loss", "--circuit", "AG-1")
@@ -60,8 +71,16 @@ def test_refusals_are_one_line_and_exit_1(plant: PlantCli, tmp_path: Path) -> No
         assert result.exit_code == 1, argv
         assert result.stderr.startswith("plantdb: ")
         assert "Traceback" not in result.output
-    assert plant("trace").exit_code == 1  # no start given
-    assert plant("trace", "--bogus").exit_code == 2
+    # Usage errors exit 2 (the contract's exit statuses), still as one plain line.
+    for argv in (
+        ["trace"],  # no start given
+        ["trace", "--port", "AG-CO:1", "--circuit", "AG-1"],  # two starts
+        ["impact"],  # no place given
+        ["trace", "--bogus"],
+    ):
+        result = plant(*argv)
+        assert result.exit_code == 2, argv
+        assert "Traceback" not in result.output
 
 
 def test_check_passes_a_sound_record_and_fails_a_broken_circuit(

@@ -9,8 +9,16 @@ import pytest
 from plantdb.db import Database, run_in_transaction
 from plantdb.errors import NotFound, PlantError, RecordsError
 from plantdb.records.bundle import load_bundle
-from plantdb.trace.service import trace_document
-from tests.networks import SINGLE_MODE, Bundle, ashgrove
+from plantdb.safety import TRACE_CAUTION
+from plantdb.trace.loss import LossOptions
+from plantdb.trace.service import loss_report, trace_document
+from tests.networks import (
+    SINGLE_MODE,
+    Bundle,
+    ashgrove,
+    ashgrove_two_input_splitter,
+    long_route,
+)
 
 
 def _load(database: Database, bundle: Bundle) -> None:
@@ -210,3 +218,126 @@ def test_unknown_starts_are_refused(database: Database) -> None:
         _trace(database, "circuit", "AG-99")
     with pytest.raises(PlantError, match="every piece"):
         _trace(database, "fiber", "F-1:5/A")
+
+
+def test_an_amplifier_in_the_middle_passes_the_light_and_splits_the_sections(
+    database: Database,
+) -> None:
+    """Optically amplified spans run 40-100 km, 60-80 km typical (seen): two 70 km spans
+    either side of an amplifier (role "amplifier"), optics +2.0 / -18.0 dBm (20 dB)."""
+    _load(database, long_route(70_000.0, 70_000.0, role="amplifier"))
+    (path,) = _trace(database, "circuit", "LONG")["paths"]
+    assert _labels(path) == [
+        "TE:1",
+        "TE:1 - PE:1",
+        "PE:1",
+        "LH-1:1",
+        "PM1:1",
+        "PM1:1 - AMP:west",
+        "AMP:west",
+        "AMP:east - PM2:1",
+        "PM2:1",
+        "LH-2:1",
+        "PW:1",
+        "PW:1 - TW:1",
+        "TW:1",
+    ]
+    amplifier = path["elements"][6]
+    # The gear appears once, under the port the light enters by, naming where it leaves.
+    assert (amplifier["kind"], amplifier["role"], amplifier["passes_to"]) == (
+        "equipment",
+        "amplifier",
+        "AMP:east",
+    )
+    assert path["begin"] == {"kind": "equipment", "at": "TE:1"}
+    assert path["end"] == {"kind": "equipment", "at": "TW:1"}
+    with database.read() as session:
+        loss = loss_report(session, "circuit", "LONG", LossOptions())
+    sections = loss["sections"]
+    assert [(s["from"], s["to"], s["length_m"]) for s in sections] == [
+        ("TE:1", "AMP:west", 70_000.0),
+        ("AMP:west", "TW:1", 70_000.0),
+    ]
+    # Each: 70 km x 0.5 + 2 x 0.3 + 2 x 0.75 = 37.1 dB (ANSI/TIA-568.3-D maxima) > 20 dB.
+    for section in sections:
+        assert section["wavelengths"]["1310"]["max_db"] == pytest.approx(37.1)
+        assert section["margin_db"]["1310"]["max"] == pytest.approx(20.0 - 37.1)
+        assert section["over_budget"] is True
+    assert "power_budget" not in loss
+
+
+def test_a_two_input_splitter_converges_to_both_inputs_upstream(database: Database) -> None:
+    """From a leg of a 2xN splitter the light goes back to each of its two inputs: two paths,
+    one to each feeder strand's office port."""
+    _load(database, ashgrove_two_input_splitter())
+    paths = _trace(database, "port", "PR-P1:2")["paths"]
+    assert sorted(p["end"]["at"] for p in paths) == ["CO-P1:6", "CO-P1:7"]
+    assert all(p["end"]["kind"] == "open_port" for p in paths)
+    by_end = {p["end"]["at"]: p for p in paths}
+    for at, leg, feeder in (("CO-P1:6", "in", "F-1:6"), ("CO-P1:7", "in2", "F-1:7")):
+        splitter = next(e for e in by_end[at]["elements"] if e["kind"] == "splitter")
+        assert (splitter["ratio"], splitter["from_leg"], splitter["to_leg"]) == ("2x4", "1", leg)
+        assert feeder in _labels(by_end[at])
+    # Downstream from one input the splitter fans out to its four outputs only, never back
+    # up the other input.
+    ends = [p["end"] for p in _trace(database, "port", "CO-P1:6")["paths"]]
+    assert ends == [
+        {"kind": "open_port", "at": "PR-P1:2"},
+        {"kind": "dead_end", "at": "SP-2:2"},
+        {"kind": "dead_end", "at": "SP-2:3"},
+        {"kind": "dead_end", "at": "SP-2:4"},
+    ]
+
+
+def _patched_ashgrove() -> Bundle:
+    """Ashgrove with switch SW-1 at the office patched to CO-P1:1 and switch SW-2 at the
+    cabinet patched to CAB-P1:1; circuit AG-1 still runs CO-P1:1 -> CAB-P1:1 (panel ports
+    with more beyond), AG-SW runs SW-1:2 -> CAB-P1:2 (an equipment A, an open Z)."""
+    b = ashgrove()
+    b.equipment("SW-1", "AG-CO", ["1", "2"]).equipment("SW-2", "AG-CAB", ["1"])
+    b.jumper("SW-1:1", "CO-P1:1").jumper("CAB-P1:1", "SW-2:1").jumper("SW-1:2", "CO-P1:2")
+    b.circuit("AG-SW", "SW-1:2", "CAB-P1:2")
+    return b
+
+
+def test_a_circuit_between_patched_ports_begins_and_ends_at_circuit_ends(
+    database: Database,
+) -> None:
+    """docs/interface.md: `circuit_end` where the circuit's path is stopped at its own end
+    although more is connected beyond it; the walk's own end kind where nothing lies beyond."""
+    _load(database, _patched_ashgrove())
+    document = _trace(database, "circuit", "AG-1")
+    (path,) = document["paths"]
+    assert _labels(path) == ["CO-P1:1", "F-1:1", "CAB-P1:1"]
+    assert path["begin"] == {"kind": "circuit_end", "at": "CO-P1:1"}
+    assert path["end"] == {"kind": "circuit_end", "at": "CAB-P1:1"}
+    # The port trace from the same A still walks on to both switches.
+    (whole,) = _trace(database, "port", "CO-P1:1")["paths"]
+    assert whole["begin"] == {"kind": "equipment", "at": "SW-1:1"}
+    assert whole["end"] == {"kind": "equipment", "at": "SW-2:1"}
+    # The answer says to verify in the field, whatever the lit marks say.
+    assert document["caution"] == TRACE_CAUTION
+    assert "fiber identifier or optical power meter" in document["caution"]
+
+
+def test_a_circuit_from_equipment_to_an_open_port_keeps_those_kinds(database: Database) -> None:
+    _load(database, _patched_ashgrove())
+    (path,) = _trace(database, "circuit", "AG-SW")["paths"]
+    assert _labels(path) == ["SW-1:2", "SW-1:2 - CO-P1:2", "CO-P1:2", "F-1:2", "CAB-P1:2"]
+    assert path["begin"] == {"kind": "equipment", "at": "SW-1:2"}
+    assert path["end"] == {"kind": "open_port", "at": "CAB-P1:2"}
+
+
+def test_a_circuit_with_an_open_a_and_a_patched_z(database: Database) -> None:
+    """Only the end with more beyond it is a circuit end."""
+    bundle = ashgrove()
+    bundle.equipment("SW-2", "AG-CAB", ["1"]).jumper("CAB-P1:1", "SW-2:1")
+    _load(database, bundle)
+    (path,) = _trace(database, "circuit", "AG-1")["paths"]
+    assert path["begin"] == {"kind": "open_port", "at": "CO-P1:1"}
+    assert path["end"] == {"kind": "circuit_end", "at": "CAB-P1:1"}
+    with database.read() as session:
+        loss = loss_report(session, "circuit", "AG-1", LossOptions())
+    # The loss document names the same ends as the trace.
+    assert loss["begin"] == {"kind": "open_port", "at": "CO-P1:1"}
+    assert loss["end"] == {"kind": "circuit_end", "at": "CAB-P1:1"}
