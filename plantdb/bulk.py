@@ -109,8 +109,8 @@ class BulkWriter:
         # Only the tables written, in this schema: a bare ANALYZE would visit every table of
         # the database, other schemas' included, and queue behind (or deadlock with) whatever
         # else holds their locks. One table per statement, as SQLite's ANALYZE takes one name.
-        for table in sorted(self.counts):
-            self.connection.exec_driver_sql(f'ANALYZE "{table}"')
+        for name in sorted(self.counts):
+            self.connection.exec_driver_sql(f'ANALYZE "{name}"')
 
 
 def _names(columns: Sequence[str]) -> str:

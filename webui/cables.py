@@ -6,6 +6,7 @@ from flask import Blueprint, render_template, url_for
 from sqlalchemy import select
 
 from plantdb.model import Cable, FiberType
+from plantdb.safety import FIELD_VERIFY
 from plantdb.trace.reader import PlantReader
 from webui.cable_view import strand_lines
 from webui.history import latest_changes
@@ -16,7 +17,8 @@ blueprint = Blueprint("cables", __name__, url_prefix="/cables")
 
 @blueprint.route("/<path:label>")
 def cable(label: str) -> str:
-    """A cable's page."""
+    """A cable's page; its strand table carries the field caution (a strand shown open with
+    no circuit reads as dark, and the record can be wrong)."""
     with reading() as session:
         reader = PlantReader(session)
         row = reader.cable(reader.cable_id(label))
@@ -40,4 +42,5 @@ def cable(label: str) -> str:
         strands=strands,
         geometry_url=url_for("map.lines", cable=label),
         history=history,
+        caution=FIELD_VERIFY,
     )

@@ -1,5 +1,5 @@
 """Panel pages: each port with its connector and polish, what is terminated behind it, what
-is patched to its front, and the circuits through it."""
+is patched to its front, the circuits through it, and the panel's latest changes."""
 
 from __future__ import annotations
 
@@ -25,6 +25,8 @@ from plantdb.model import (
     Strand,
     Structure,
 )
+from plantdb.safety import FIELD_VERIFY
+from webui.history import latest_changes
 from webui.store import reading
 from webui.views import strand_markings
 
@@ -114,7 +116,8 @@ def _circuits(session: Session, panel_id: int) -> dict[int, list[dict[str, str]]
 
 @blueprint.route("/<path:label>")
 def panel(label: str) -> str:
-    """A panel's page."""
+    """A panel's page; its port table carries the field caution (a port with nothing on it
+    reads as dark, and the record can be wrong)."""
     with reading() as session:
         row = _panel(session, label)
         info: Panel = row[0]
@@ -137,4 +140,12 @@ def panel(label: str) -> str:
             }
             for p in ports
         ]
-        return render_template("panel.html", panel=info, structure=row.structure, ports=lines)
+        history = latest_changes(session, "panel", label)
+        return render_template(
+            "panel.html",
+            panel=info,
+            structure=row.structure,
+            ports=lines,
+            caution=FIELD_VERIFY,
+            history=history,
+        )

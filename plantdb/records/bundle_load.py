@@ -1,9 +1,12 @@
-"""Loading a bundle: validate every item against the record, then write it all in one go.
+"""Loading a bundle: every item checked against the record, all of it written or none.
 
-The caller owns the transaction (`run_in_transaction`); any problem raises `BundleError` with
-every problem found, each naming the item by its path and label, and the transaction rolls
-back, so the database is left as it was. Sections load in dependency order; the plant's
-places here, its cables in `bundle_cables`, its connections in `bundle_connections`.
+Sections are checked and written in dependency order inside the caller's one transaction
+(`run_in_transaction`): places first, so that cables and connections can be checked against
+the rows they name. Checking goes on past a problem, so any problem raises `BundleError` with
+every problem found, each naming the item by its path and label; the transaction then rolls
+back, so the database is left as it was. (A database constraint that the checks missed would
+also roll it all back, but could name only the constraint, not the item.) The plant's places
+load here, its cables in `bundle_cables`, its connections in `bundle_connections`.
 """
 
 from __future__ import annotations
@@ -346,7 +349,9 @@ def load_closures(ctx: LoadContext, data: dict[str, Any]) -> None:
             ],
         )
         ctx.lookup.remember_closure(PlaceInfo(closure_id, label, structure.id))
-        ctx.changes.append(thing_added("closure", closure_id, label, item))
+        ctx.changes.append(
+            thing_added("closure", closure_id, label, item, structure_id=structure.id)
+        )
         ctx.count("closures", 1)
 
 
@@ -375,7 +380,7 @@ def load_panels(ctx: LoadContext, data: dict[str, Any]) -> None:
             ],
         )
         ctx.lookup.remember_panel(PlaceInfo(panel_id, label, structure.id, item["ports"]))
-        ctx.changes.append(thing_added("panel", panel_id, label, item))
+        ctx.changes.append(thing_added("panel", panel_id, label, item, structure_id=structure.id))
         ctx.count("panels", 1)
 
 
@@ -405,7 +410,9 @@ def load_equipment(ctx: LoadContext, data: dict[str, Any]) -> None:
         (equipment_id,) = ctx.insert_ids(Equipment, [row])
         ctx.insert(Port, [{"equipment_id": equipment_id, "name": name} for name in names])
         ctx.lookup.remember_equipment(PlaceInfo(equipment_id, label, structure.id))
-        ctx.changes.append(thing_added("equipment", equipment_id, label, item))
+        ctx.changes.append(
+            thing_added("equipment", equipment_id, label, item, structure_id=structure.id)
+        )
         ctx.count("equipment", 1)
 
 
@@ -460,6 +467,6 @@ def load_splitters(ctx: LoadContext, data: dict[str, Any]) -> None:
                 place.structure_id,
             )
         )
-        where = {"closure_id": closure.id} if closure else {}
+        where = {"closure_id": closure.id} if closure else {"panel_id": place.id}
         ctx.changes.append(added("splitter", splitter_id, f"splitter {label}", item, **where))
         ctx.count("splitters", 1)

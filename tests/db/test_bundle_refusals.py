@@ -304,6 +304,27 @@ CASES = [
         id="spliced-and-terminated",
     ),
     pytest.param(
+        steps(
+            lambda b: b.closure("AC-2", "AH-2"),
+            lambda b: b.splice("AC-2", "F-1:7/A", "D-1:2"),
+        ),
+        "splices[1]",
+        "cable F-1 has no station in closure AC-2",
+        id="splice-where-a-cable-has-no-station",
+    ),
+    pytest.param(
+        append("routes", {"label": "R-1", "spans": ["S1", "S3"]}),
+        "routes[0] (R-1)",
+        "its spans do not join end to end",
+        id="route-spans-not-joined",
+    ),
+    pytest.param(
+        append("routes", {"label": "R-1", "spans": ["S1", "S9"]}),
+        "routes[0] (R-1)",
+        "no span is labelled S9",
+        id="route-unknown-span",
+    ),
+    pytest.param(
         lambda b: b.terminate("F-1:9", "CO-P1:1"),
         "terminations[16]",
         "CO-P1:1 is already terminated",

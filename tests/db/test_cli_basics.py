@@ -114,6 +114,16 @@ def test_dump_json_reports_what_it_wrote(plant: PlantCli, tmp_path: Path) -> Non
     assert json.loads(file.read_text(encoding="utf-8"))["format"] == "plantdb-bundle"
 
 
+def test_dump_to_a_folder_that_is_not_there_names_the_file_asked_for(
+    plant: PlantCli, tmp_path: Path
+) -> None:
+    file = tmp_path / "missing" / "x.json"
+    result = plant("dump", "-o", str(file))
+    assert result.exit_code == 1
+    assert result.stderr.startswith(f"plantdb: cannot write {file}: ")
+    assert ".partial" not in result.stderr
+
+
 @pytest.mark.parametrize(
     "args",
     [

@@ -1,6 +1,7 @@
 """Real-browser tests: Debian's Chromium driven by Playwright against a live server on the
-demo town. Each test records every request the page makes and fails if one leaves the server;
-a failing test leaves a screenshot in its temporary folder.
+demo town. Each test records every request the page makes and fails if one leaves the server
+or a script fails; every failure, of the test itself or of those checks as its tab closes,
+leaves a screenshot of the page (`failure.png`) in the test's temporary folder.
 
 Without /usr/bin/chromium these tests skip, saying so; with PLANTDB_REQUIRE_BROWSER=1 (CI)
 they fail instead. Playwright never downloads a browser here.
@@ -20,6 +21,7 @@ from typing import Any
 import pytest
 from werkzeug.serving import make_server
 
+from plantdb.safety import LOCATE_CAUTION
 from tests.web.conftest import PASSWORD, add_person_to
 from webui import create_app
 
@@ -101,6 +103,17 @@ class Visit:
     def open(self, path: str) -> None:
         self.page.goto(self.base + path)
 
+    def problems(self) -> list[str]:
+        """What the checks made as the tab closes find: requests that left the server, script
+        errors and files that failed to load."""
+        found = []
+        outside = [url for url in self.requests if not url.startswith(self.base + "/")]
+        if outside:
+            found.append(f"the page loaded from outside the server: {outside}")
+        if self.errors:
+            found.append(f"script errors or missing files: {self.errors}")
+        return found
+
     def map_ready(self) -> None:
         self.page.wait_for_selector("#map[data-ready='true']", timeout=WAIT_MS)
 
@@ -124,20 +137,45 @@ class Visit:
         self.page.mouse.click(spot[0], spot[1])
 
 
-@pytest.fixture
-def visit(
-    browser: Any, server: str, request: pytest.FixtureRequest, tmp_path: Path
-) -> Iterator[Visit]:
-    """A fresh tablet-sized tab; afterwards, every request must have stayed on the server."""
+SCREENSHOT = "failure.png"
+
+
+def save_screenshot(page: Any, folder: Path) -> str:
+    """A full-page screenshot of the tab in `folder`; where it is, for the failure message (a
+    tab too broken to draw says so rather than hide the failure it would show)."""
+    from playwright.sync_api import Error as PlaywrightError
+
+    path = folder / SCREENSHOT
+    try:
+        page.screenshot(path=str(path), full_page=True)
+    except PlaywrightError as error:
+        return f"no screenshot: {error.message}"
+    return f"screenshot: {path}"
+
+
+def close_tab(tab: Visit, context: Any, folder: Path, *, test_failed: bool) -> None:
+    """Close the tab after its checks; any failure, the test's or the checks', leaves a
+    screenshot first."""
+    problems = tab.problems()
+    shot = save_screenshot(tab.page, folder) if test_failed or problems else ""
+    if shot:
+        print(shot)  # shown with the failed test's captured output
+    context.close()
+    assert not problems, f"{'; '.join(problems)} ({shot})"
+
+
+@contextmanager
+def _tab(browser: Any, base: str, request: pytest.FixtureRequest, folder: Path) -> Iterator[Visit]:
+    """A fresh tablet-sized tab on `base` that records its requests and script errors."""
     context = browser.new_context(viewport=TABLET)
     context.set_default_timeout(WAIT_MS)
     page = context.new_page()
-    tab = Visit(page, server)
+    tab = Visit(page, base)
     page.on("request", lambda r: tab.requests.append(r.url))
     page.on("pageerror", lambda e: tab.errors.append(str(e)))
     # A content-security-policy violation (an inline style or script the policy refuses) shows
     # as a console error; so does any other script error the page logs. (Failed loads are
-    # judged by the response listener below, which knows a 422 page is on purpose.)
+    # judged by the response listener below, which knows a 401 or 422 page is on purpose.)
     page.on(
         "console",
         lambda m: (
@@ -146,7 +184,7 @@ def visit(
             else None
         ),
     )
-    # A refused page answers 422 on purpose; anything else a page loads must be found.
+    # A refused page answers 401 or 422 on purpose; anything else a page loads must be found.
     page.on(
         "response",
         lambda r: (
@@ -156,13 +194,27 @@ def visit(
         ),
     )
     yield tab
+    # The test's own outcome, kept on the item by the report hook in tests/web/conftest.py.
     call = getattr(request.node, "report_call", None)
-    if call is not None and call.failed:
-        page.screenshot(path=str(tmp_path / "failure.png"), full_page=True)
-    context.close()
-    outside = [url for url in tab.requests if not url.startswith(server + "/")]
-    assert not outside, f"the page loaded from outside the server: {outside}"
-    assert not tab.errors, f"script errors or missing files: {tab.errors}"
+    close_tab(tab, context, folder, test_failed=call is not None and call.failed)
+
+
+@pytest.fixture
+def visit(
+    browser: Any, server: str, request: pytest.FixtureRequest, tmp_path: Path
+) -> Iterator[Visit]:
+    """A fresh tablet-sized tab; afterwards, every request must have stayed on the server."""
+    with _tab(browser, server, request, tmp_path) as tab:
+        yield tab
+
+
+@pytest.fixture
+def staffed_visit(
+    browser: Any, staffed_server: str, request: pytest.FixtureRequest, tmp_path: Path
+) -> Iterator[Visit]:
+    """A tab on the server that needs sign-in, checked as `visit` is."""
+    with _tab(browser, staffed_server, request, tmp_path) as tab:
+        yield tab
 
 
 def test_map_shows_the_demo_towns_layers(visit: Visit) -> None:
@@ -228,7 +280,9 @@ def test_a_range_entered_in_the_form_appears_in_the_sheet(visit: Visit) -> None:
     rows = page.locator("#tray-3 table.splices tbody tr")
     assert rows.count() == 6
     first = rows.first.inner_text()
-    # Strand 25 of 12-per-tube cables is tube 3 (green), fiber 1 (blue): named, not only drawn.
+    # ANSI/TIA-598 colour order (seen; checked against the standard in
+    # tests/unit/test_colours.py): strand 25 of 12-per-tube cables is tube 3, fiber 1
+    # (arithmetic), so green / blue, named, not only drawn.
     assert "QM-F288:25/B" in first and "QM-F48M:25" in first
     assert "green / blue" in first and "(GR/BL)" in first
 
@@ -264,7 +318,8 @@ def test_an_otdr_location_puts_a_pin_on_the_map(visit: Visit) -> None:
     assert page.locator("path.locate-range").count() == 1
     places = page.locator(".locate-place").all_inner_texts()
     assert sorted(places) == ["QM-MH02", "QM-PED1"]
-    assert "before digging" in page.locator("#locate-answer .caution").inner_text()
+    caution = page.locator("#locate-answer .caution").inner_text()
+    assert LOCATE_CAUTION in " ".join(caution.split())  # plantdb.safety's own text
 
 
 def test_an_import_shows_its_dry_run_report_then_commits(visit: Visit) -> None:
@@ -349,30 +404,43 @@ def test_the_keyboard_reaches_the_page_and_the_map(visit: Visit) -> None:
     page.wait_for_url("**/closures/QM-SC-PL06")
 
 
-def test_signing_in_and_out(browser: Any, staffed_server: str) -> None:
-    context = browser.new_context(viewport=TABLET)
-    context.set_default_timeout(WAIT_MS)
-    page = context.new_page()
-    errors: list[str] = []
-    page.on("pageerror", lambda e: errors.append(str(e)))
-    page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
-    page.goto(staffed_server + "/closures/QM-SC-CABN")
+def test_signing_in_and_out(staffed_visit: Visit) -> None:
+    page = staffed_visit.page
+    staffed_visit.open("/closures/QM-SC-CABN")
     page.wait_for_url("**/sign-in?next=/closures/QM-SC-CABN")
     assert page.locator("#open-banner").count() == 0
     page.get_by_label("Name").fill("wren")
     page.get_by_label("Password").fill("not the password")
     page.get_by_role("button", name="Sign in").click()
+    # The refusal page answers 401 on purpose (the tab's checks pass a refused page).
     assert "not accepted" in page.locator("#sign-in-problem").inner_text()
-    errors.clear()  # the refusal page answers 401 on purpose
     page.get_by_label("Password").fill(PASSWORD)
     page.get_by_role("button", name="Sign in").click()
     page.wait_for_url("**/closures/QM-SC-CABN")
     assert page.locator("#signed-in-as").inner_text() == "wren (clerk)"
-    cookie = next(c for c in context.cookies() if c["name"] == "plantdb_session")
+    cookie = next(c for c in page.context.cookies() if c["name"] == "plantdb_session")
     assert cookie["httpOnly"] and cookie["sameSite"] == "Lax"
     page.get_by_role("button", name="Sign out").click()
     page.wait_for_url("**/sign-in")
-    page.goto(staffed_server + "/circuits/")
+    staffed_visit.open("/circuits/")
     page.wait_for_url("**/sign-in?next=/circuits/")
-    context.close()
-    assert not errors, errors
+    # Script errors and requests that left the server are checked as the tab closes.
+
+
+def test_a_check_failing_as_the_tab_closes_leaves_a_screenshot(
+    browser: Any, server: str, tmp_path: Path
+) -> None:
+    context = browser.new_context(viewport=TABLET)
+    tab = Visit(context.new_page(), server)
+    tab.open("/import/")
+    tab.requests.append("https://tiles.invalid/0/0/0.png")  # as a page loading from outside
+    with pytest.raises(AssertionError, match="loaded from outside the server") as failed:
+        close_tab(tab, context, tmp_path, test_failed=False)
+    assert f"screenshot: {tmp_path / SCREENSHOT}" in str(failed.value)
+    assert (tmp_path / SCREENSHOT).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # With nothing found and the test passed, no screenshot is taken.
+    context = browser.new_context(viewport=TABLET)
+    quiet = Visit(context.new_page(), server)
+    (tmp_path / SCREENSHOT).unlink()
+    close_tab(quiet, context, tmp_path, test_failed=False)
+    assert not (tmp_path / SCREENSHOT).exists()

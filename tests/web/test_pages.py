@@ -1,16 +1,24 @@
-"""The pages people read, on the demo town: content, links, colours with names, cautions."""
+"""The pages people read, on the demo town: content, links, colours with names, cautions.
+
+Sources named beside the checks: strand and unit colours are the ANSI/TIA-598 colour order
+(seen; the sequence itself is checked against the standard in tests/unit/test_colours.py),
+a strand's unit and place in it are arithmetic; the cautions are plantdb.safety's own text,
+compared by its constants.
+"""
 
 from __future__ import annotations
 
 import csv
 import html
 import io
+import json
 import re
 
 import pytest
 from flask.testing import FlaskClient
 
-from tests.web.conftest import page_text
+from plantdb.safety import CLOSURE_CAUTION, FIELD_VERIFY, IMPACT_CAUTION, LOCATE_CAUTION
+from tests.web.conftest import new_app, page_text
 
 PAGES = [
     "/",
@@ -28,13 +36,36 @@ PAGES = [
     "/structures/QM-CAB-N",
     "/spans/QM-S25",
     "/search?q=QM",
+    "/history/closure/QM-SC-MH02",
+    "/history/cable/QM-F288",
+    "/history/circuit/QM-CD-03",
+    "/history/panel/QM-CO-ODF1",
+    "/history/structure/QM-CAB-N",
+    "/history/span/QM-S25",
+    "/sign-in",
 ]
+
+_CAUTION = re.compile(r'<div class="caution"[^>]*>(.*?)</div>', re.DOTALL)
+_TAG = re.compile(r"<[^>]+>")
 
 
 def _get(client: FlaskClient, url: str, status: int = 200) -> str:
     response = client.get(url)
     assert response.status_code == status, url
     return page_text(response)
+
+
+def cautions(page: str) -> list[str]:
+    """The text of each caution box of a page (or part of one), as a reader sees it."""
+    return [html.unescape(_TAG.sub("", box)) for box in _CAUTION.findall(page)]
+
+
+def settings_of(page: str) -> dict[str, object]:
+    """The data-settings of a page's plant map."""
+    found = re.search(r'data-map="plant" data-settings=\'([^\']*)\'', page)
+    assert found is not None, "the page has no plant map"
+    settings: dict[str, object] = json.loads(html.unescape(found.group(1)))
+    return settings
 
 
 @pytest.mark.parametrize("url", PAGES)
@@ -69,6 +100,19 @@ def test_map_page_loads_leaflet_from_the_server(client: FlaskClient) -> None:
             assert response.status_code == 200, url
 
 
+def test_a_configured_base_map_reaches_the_pages_maps(demo_url: str) -> None:
+    tiles = "https://tiles.invalid/{z}/{x}/{y}.png"
+    app = new_app(demo_url, TILE_URL=tiles, TILE_ATTRIBUTION="© Tile Makers' Guild <t>")
+    try:
+        client = app.test_client()
+        for url in ("/", "/dispatch/"):
+            settings = settings_of(_get(client, url))
+            assert settings["tile_url"] == tiles, url
+            assert settings["tile_attribution"] == "© Tile Makers' Guild <t>", url
+    finally:
+        app.extensions["plantdb.database"].dispose()
+
+
 def test_favicon_is_served_from_the_server(client: FlaskClient) -> None:
     response = client.get("/favicon.ico")
     assert response.status_code == 301
@@ -94,15 +138,18 @@ def test_closure_page(client: FlaskClient) -> None:
         assert f'id="tray-{tray}"' in page
     assert "Tray 1 <small>(12 of 12 slots used)</small>" in page
     assert "Tray 3 <small>(0 of 12 slots used)</small>" in page
-    # F288:13/A is tube 2 (orange), fiber 1 (blue); F48M:1 is tube 1 fiber 1, blue/blue.
+    # ANSI/TIA-598 colour order (seen): strand 13 of a 12-per-tube cable is tube 2, fiber 1
+    # (arithmetic), so orange / blue; F48M:1 is tube 1 fiber 1, blue / blue.
     sheet = page[page.index('id="tray-1"') :]
     row = sheet[sheet.index("QM-F288:13/A") :].split("</tr>")[0]
     assert 'class="swatch tia-2"' in row and "orange / " in row
     assert "(OR/BL)" in row and "(BL/BL)" in row
     assert "toward QM-CO-ODF1" in row
-    # What is live, and its caution.
-    assert "Caution before opening" in page
-    assert "express strands included" in page
+    # What is live, and its caution: plantdb.safety's text, the field check included.
+    live = page[page.index('<section id="live"') :].split("</section>")[0]
+    assert "Caution before opening" in live
+    (caution,) = cautions(live)
+    assert CLOSURE_CAUTION in caution and FIELD_VERIFY in caution
     assert "QM-BB-01" in page and "status-active" in page
     # Entry forms: one splice, a range, a unit to a unit.
     for form in ("form-one", "form-range", "form-unit"):
@@ -137,12 +184,19 @@ def test_cable_page(client: FlaskClient) -> None:
     # Every unit with its colour, every strand with its states and circuits.
     assert 'id="unit-4"' in page and 'id="strand-48"' in page
     strand3 = page[page.index('id="strand-3"') :].split("</tr>")[0]
+    # ANSI/TIA-598 colour order (seen): tube 1 is blue, fiber 3 green.
     assert "blue / " in strand3 and "green" in strand3
     assert "state-express" in strand3  # passes QM-SC-PL02 uncut
     assert "state-spliced" in strand3  # spliced to the drop at QM-SC-PL04
     assert "QM-CD-03" in strand3
     strand8 = page[page.index('id="strand-8"') :].split("</tr>")[0]
     assert "state-open" in strand8
+    # An open strand with no circuit reads as dark: the table says to verify in the field.
+    strands = page[page.index('aria-labelledby="strands-h"') :].split("</section>")[0]
+    assert strands.index('id="strand-caution"') < strands.index('<table class="strands">')
+    (caution,) = cautions(strands)
+    assert FIELD_VERIFY in caution
+    assert "open in the record, not proven dark" in caution
 
 
 def test_cable_page_of_a_drop_ending_on_a_panel(client: FlaskClient) -> None:
@@ -162,8 +216,14 @@ def test_panel_page(client: FlaskClient) -> None:
     assert "pigtail splice" in port49
     assert "QM-SW-CO1:4" in port49 and "equipment" in port49
     assert "QM-BB-04" in port49
-    # Tube 5 fiber 1 of a 12-per-tube cable: slate / blue.
+    # ANSI/TIA-598 colour order (seen): strand 49 of a 12-per-tube cable is tube 5, fiber 1
+    # (arithmetic), so slate / blue.
     assert "slate / " in port49 and "(SL/BL)" in port49
+    # A port with nothing on it reads as dark: the table says to verify in the field.
+    assert page.index('id="port-caution"') < page.index('<table class="ports">')
+    (caution,) = cautions(page)
+    assert FIELD_VERIFY in caution
+    assert "empty in the record, not proven dark" in caution
 
 
 def test_circuit_page(client: FlaskClient) -> None:
@@ -208,7 +268,8 @@ def test_dispatch_cut_impact(client: FlaskClient) -> None:
         assert f">{circuit['label']}</a>" in answer
     assert f"{impact['summary']['active']} active circuits down" in answer
     assert "Finchmoss Books" in answer
-    assert "confirm affected services" in answer  # the caution
+    (caution,) = cautions(answer.split('id="locate-h"')[0])
+    assert IMPACT_CAUTION in caution and FIELD_VERIFY in caution
     assert "&#34;cables_url&#34;: &#34;/api/v1/geometry?cable=QM-D48W&#34;" in page or (
         '"cables_url": "/api/v1/geometry?cable=QM-D48W"' in page
     )
@@ -219,7 +280,8 @@ def test_dispatch_locate(client: FlaskClient) -> None:
     answer = page[page.index('id="locate-answer"') :]
     assert '<a href="/cables/QM-F48M">QM-F48M</a> strand 1' in answer
     assert '<a href="/structures/QM-MH02">QM-MH02</a> and <a href="/structures/QM-PED1">' in answer
-    assert "before digging" in answer
+    (caution,) = cautions(answer)
+    assert LOCATE_CAUTION in caution and FIELD_VERIFY in caution
     assert '"locate": {' in page.replace("&#34;", '"')
 
 
