@@ -18,6 +18,7 @@ from sqlalchemy.orm import Session
 
 from plantdb.errors import PlantError
 from plantdb.model import Circuit, CircuitPathItem, CircuitStatus
+from plantdb.model.circuits import UNTRACED
 from plantdb.trace.elements import TracedPath
 from plantdb.trace.rawsql import RawSql
 from plantdb.trace.reader import PlantReader
@@ -26,7 +27,7 @@ from plantdb.trace.tracing import circuit_path
 COMPLETE = "complete"
 INCOMPLETE = "incomplete"
 NO_Z = "no_z"
-RECORDS_ERROR = "records_error"
+RECORDS_ERROR = UNTRACED
 
 
 def _items(reader: PlantReader, circuit_id: int, path: TracedPath) -> list[dict[str, Any]]:
@@ -188,10 +189,13 @@ def mark_lit(session: Session, paths: list[TracedPath]) -> None:
             element.fields["lit"] = any(st == CircuitStatus.ACTIVE.value for _l, st in on)
 
 
+# The state is written into the statement, not bound, so that both planners see it matches
+# the partial index `ix_circuit_untraced` (a bound parameter could be any state).
 _UNTRACED = (
-    "SELECT label, status, path_note FROM circuit WHERE path_state = ? ORDER BY"
+    "SELECT label, status, path_note FROM circuit WHERE path_state = 'records_error' ORDER BY"
     " CASE status WHEN 'active' THEN 0 WHEN 'out_of_service' THEN 1 ELSE 2 END, label"
 )
+assert f"'{UNTRACED}'" in _UNTRACED
 
 
 def untraced_circuits(sql: RawSql) -> list[dict[str, Any]]:
@@ -199,5 +203,5 @@ def untraced_circuits(sql: RawSql) -> list[dict[str, Any]]:
     the dispatcher answers name them rather than leave them out silently."""
     return [
         {"label": label, "status": str(status), "note": note}
-        for label, status, note in sql.rows(_UNTRACED, (RECORDS_ERROR,))
+        for label, status, note in sql.rows(_UNTRACED)
     ]

@@ -1,8 +1,9 @@
-"""circuit path state index
+"""index of the circuits no walk can place
 
 Circuits whose paths cannot be walked are named by every dispatcher answer, so they are
-looked up by their path state. Circuits with no Z end now keep the steps their A end reaches
-(as broken ones always did): `plantdb check` re-traces every circuit and fills them in.
+found through a partial index of those circuits alone. Circuits with no Z end now keep the
+steps their A end reaches (as broken ones always did): `plantdb check` re-traces every
+circuit and fills them in.
 
 Revision ID: 0009
 Revises: 0008
@@ -13,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+import sqlalchemy as sa
 from alembic import op
 
 revision: str = "0009"
@@ -21,11 +23,20 @@ branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
 
+UNTRACED = "path_state = 'records_error'"
+
+
 def upgrade() -> None:
     with op.batch_alter_table("circuit", schema=None) as batch_op:
-        batch_op.create_index(batch_op.f("ix_circuit_path_state"), ["path_state"], unique=False)
+        batch_op.create_index(
+            "ix_circuit_untraced",
+            ["label"],
+            unique=False,
+            sqlite_where=sa.text(UNTRACED),
+            postgresql_where=sa.text(UNTRACED),
+        )
 
 
 def downgrade() -> None:
     with op.batch_alter_table("circuit", schema=None) as batch_op:
-        batch_op.drop_index(batch_op.f("ix_circuit_path_state"))
+        batch_op.drop_index("ix_circuit_untraced")
