@@ -22,7 +22,13 @@ from sqlalchemy.orm import Session
 
 from plantdb.bulk import BulkWriter
 from plantdb.errors import PlantError
-from plantdb.model.history import ACTOR_LENGTH, CHANGE_LABEL_LENGTH, Change, ChangeAction
+from plantdb.model.history import (
+    ACTOR_LENGTH,
+    CHANGE_LABEL_LENGTH,
+    CONCERNING,
+    Change,
+    ChangeAction,
+)
 
 # The table's own INSERT, one executemany: the ORM's bulk path costs more than the writing.
 _CHANGE = cast(Table, Change.__table__)
@@ -95,14 +101,7 @@ _COLUMNS = (
     "entity",
     "entity_id",
     "label",
-    "closure_id",
-    "cable_id",
-    "other_cable_id",
-    "circuit_id",
-    "panel_id",
-    "other_panel_id",
-    "structure_id",
-    "span_id",
+    *CONCERNING,
     "before",
     "after",
 )

@@ -17,7 +17,13 @@ import re
 import pytest
 from flask.testing import FlaskClient
 
-from plantdb.safety import CLOSURE_CAUTION, FIELD_VERIFY, IMPACT_CAUTION, LOCATE_CAUTION
+from plantdb.safety import (
+    CLOSURE_CAUTION,
+    FIELD_VERIFY,
+    IMPACT_CAUTION,
+    LOCATE_CAUTION,
+    TRACE_CAUTION,
+)
 from tests.web.conftest import new_app, page_text
 
 PAGES = [
@@ -240,6 +246,10 @@ def test_circuit_page(client: FlaskClient) -> None:
     assert '<a href="/cables/QM-F144#strand-1">QM-F144:1</a>' in page
     assert '<a href="/closures/QM-SC-CABN#tray-1">QM-SC-CABN tray 1 slot 1</a>' in page
     assert 'data-geometry-url="/api/v1/geometry?circuit=QM-CD-03"' in page
+    # The trace marks strands lit: one not marked is not proven dark, and the page says so.
+    trace = page.split('id="trace-h"')[1].split("</section>")[0]
+    (caution,) = cautions(trace)
+    assert caution == "Caution" + TRACE_CAUTION
 
 
 def test_circuit_page_asks_other_wavelengths(client: FlaskClient) -> None:
