@@ -125,12 +125,29 @@ def viewport(session: Session, box: Box, limit: int, url: UrlFor) -> dict[str, A
     }
     truncated = sorted(name for name, found in layers.items() if len(found) > limit)
     features = [f for found in layers.values() for f in found[:limit]]
-    return {
-        "type": "FeatureCollection",
-        "bbox": list(box),
-        "features": features,
-        "truncated": truncated,
-    }
+    answer: dict[str, Any] = {"type": "FeatureCollection", "features": features}
+    extent = _extent(features, crosses=box[0] > box[2])
+    if extent is not None:
+        # RFC 7946 section 5: the range of the coordinates given (a span crossing the box's
+        # edge reaches past it); the box asked for is kept beside it.
+        answer["bbox"] = extent
+    answer["requested_bbox"] = list(box)
+    answer["truncated"] = truncated
+    return answer
+
+
+def _extent(features: list[dict[str, Any]], crosses: bool) -> list[float] | None:
+    """[west, south, east, north] of the features' positions (None for none). Where the box
+    asked for crosses the antimeridian, longitudes are compared east of it, and a west edge
+    greater than the east one says so, as RFC 7946 section 5.2 writes such a box."""
+    positions = [p for f in features for p in _positions(f["geometry"])]
+    if not positions:
+        return None
+    lons = [p[0] + 360.0 if crosses and p[0] < 0 else p[0] for p in positions]
+    lats = [p[1] for p in positions]
+    west, east = min(lons), max(lons)
+    west, east = (w - 360.0 if w > 180.0 else w for w in (west, east))
+    return [west, min(lats), east, max(lats)]
 
 
 def extent(session: Session) -> Box | None:

@@ -115,7 +115,13 @@ _DOCUMENTS: dict[str, dict[str, Any]] = {
         "required": ["type", "features"],
         "properties": {
             "type": {"const": "FeatureCollection"},
-            "bbox": {"type": "array", "items": {"type": "number"}},
+            "bbox": {"type": "array", "items": {"type": "number"}, "minItems": 4, "maxItems": 4},
+            "requested_bbox": {
+                "type": "array",
+                "items": {"type": "number"},
+                "minItems": 4,
+                "maxItems": 4,
+            },
             "features": {"type": "array", "items": {"type": "object"}},
             "truncated": {"type": "array", "items": {"type": "string"}},
         },

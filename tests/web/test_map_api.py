@@ -24,7 +24,23 @@ def _features(body: dict[str, Any], layer: str) -> dict[str, dict[str, Any]]:
 def test_map_answers_an_rfc7946_feature_collection(client: FlaskClient, demo_url: str) -> None:
     body = client.get(f"/api/v1/map?bbox={TOWN}").get_json()
     assert body["type"] == "FeatureCollection"
-    assert body["bbox"] == [-101.9, 46.3, -101.8, 46.4]
+    assert body["requested_bbox"] == [-101.9, 46.3, -101.8, 46.4]
+    # RFC 7946 section 5: bbox is the range of the coordinates the collection holds.
+    positions = [
+        p
+        for f in body["features"]
+        for p in (
+            [f["geometry"]["coordinates"]]
+            if f["geometry"]["type"] == "Point"
+            else f["geometry"]["coordinates"]
+        )
+    ]
+    assert body["bbox"] == [
+        min(p[0] for p in positions),
+        min(p[1] for p in positions),
+        max(p[0] for p in positions),
+        max(p[1] for p in positions),
+    ]
     assert body["truncated"] == []
     structures = _features(body, "structure")
     assert len(structures) == 35  # every structure of the demo town
@@ -68,7 +84,8 @@ def test_map_answers_only_what_lies_in_the_box(client: FlaskClient) -> None:
     assert set(_features(body, "closure")) == set()
     assert {"QM-CO-ODF1", "QM-CO-ODF2"} == set(_features(body, "panel"))
     empty = client.get("/api/v1/map?bbox=10,10,11,11").get_json()
-    assert empty["features"] == []
+    assert empty["features"] == [] and "bbox" not in empty
+    assert empty["requested_bbox"] == [10, 10, 11, 11]
 
 
 def test_map_cuts_a_crowded_viewport_and_says_so(make_app: Any) -> None:
@@ -91,6 +108,8 @@ def test_map_box_may_cross_the_antimeridian(make_app: Any) -> None:
     app: Flask = make_app(b)
     body = app.test_client().get("/api/v1/map?bbox=179.5,-18,-179.5,-16").get_json()
     assert set(_features(body, "structure")) == {"EAST-EDGE", "WEST-EDGE"}
+    # The extent crosses the antimeridian too, written west > east (RFC 7946 section 5.2).
+    assert body["bbox"] == [179.9, -17.0, -179.9, -17.0]
 
 
 def test_bbox_parameter_rules() -> None:
