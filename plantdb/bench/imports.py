@@ -15,7 +15,7 @@ from typing import Any
 from sqlalchemy import select
 
 from plantdb.bench.baselines import RawConnection
-from plantdb.bench.timing import Result, median_times
+from plantdb.bench.timing import TARGETS, Result, median_times
 from plantdb.db import Database, run_in_transaction
 from plantdb.errors import PlantError
 from plantdb.model import Circuit, Setting
@@ -211,8 +211,6 @@ class ImportBench:
                     raise PlantError(f"the benchmark sheet was refused: {report.problems[:3]}")
 
             run_in_transaction(self.database, work)
-
-        from plantdb.bench.suite import TARGETS
 
         what, ratio, seconds = TARGETS["import"]
         splices, ends = self._final_rows()

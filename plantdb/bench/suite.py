@@ -16,7 +16,7 @@ from sqlalchemy import select
 
 from plantdb.bench import baselines
 from plantdb.bench.imports import ImportBench
-from plantdb.bench.timing import Result, median_times
+from plantdb.bench.timing import TARGETS, Result, median_times
 from plantdb.db import Database, require_current_schema, schema_revisions, upgrade_schema
 from plantdb.errors import PlantError
 from plantdb.model import Setting
@@ -26,16 +26,6 @@ from plantdb.trace.loss import LossOptions
 from plantdb.trace.reader import PlantReader
 from plantdb.trace.service import trace_with_loss
 from plantdb.trace.tracing import circuit_path
-
-# name: (what is measured, target ratio to its baseline, target time at 1M strands here)
-TARGETS: dict[str, tuple[str, float | None, float]] = {
-    "trace": ("trace + loss of the longest circuit", 10.0, 0.010),
-    "import": ("import a 100,000-splice sheet, validated, committed", 15.0, 10.0),
-    "live": ("live through the busiest closure", 20.0, 0.100),
-    "impact": ("cut impact of the busiest span", 20.0, 0.200),
-    "map": ("map GeoJSON for a 2 km x 2 km viewport", 10.0, 0.200),
-    "page": ("the busiest closure's HTML page via the test client", None, 0.300),
-}
 
 
 def default_database(fibers: int, seed: int) -> str:

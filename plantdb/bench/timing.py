@@ -78,3 +78,14 @@ def _timed(action: Callable[[], Any], between: Callable[[], Any] | None) -> floa
     if between is not None:
         between()
     return elapsed
+
+
+# name: (what is measured, target ratio to its baseline, target time at 1M strands here)
+TARGETS: dict[str, tuple[str, float | None, float]] = {
+    "trace": ("trace + loss of the longest circuit", 10.0, 0.010),
+    "import": ("import a 100,000-splice sheet, validated, committed", 15.0, 10.0),
+    "live": ("live through the busiest closure", 20.0, 0.100),
+    "impact": ("cut impact of the busiest span", 20.0, 0.200),
+    "map": ("map GeoJSON for a 2 km x 2 km viewport", 10.0, 0.200),
+    "page": ("the busiest closure's HTML page via the test client", None, 0.300),
+}
