@@ -4,14 +4,17 @@ circuit status; and the splice rows of the API. Every change is all or nothing."
 from __future__ import annotations
 
 import base64
+import csv
 import html
 import io
+from pathlib import Path
 from typing import Any
 
 import pytest
 from flask import Flask
 from flask.testing import FlaskClient
 
+from tests.conftest import PlantCli
 from tests.networks import SINGLE_MODE, Bundle
 from tests.web.conftest import page_text
 from webui.access import is_writing_view
@@ -334,6 +337,25 @@ def test_api_records_splice_rows(yard: FlaskClient) -> None:
     again = yard.post("/api/v1/splices", json=ROWS)
     assert again.status_code == 200
     assert again.get_json()["already_recorded"] == 3
+
+
+def test_api_splice_rows_answer_as_the_import_command_does(
+    make_app: Any, db_url: str, tmp_path: Path
+) -> None:
+    """The same rows through `POST /api/v1/splices` and `plantdb import splices --json`: the
+    same report (the command adds only the file's name and its row count)."""
+    client = make_app(splice_yard()).test_client()
+    api = client.post("/api/v1/splices?dry_run=true", json=ROWS).get_json()
+    sheet = tmp_path / "rows.csv"
+    columns = ["closure", "tray", "slot", "a_cable", "a_strand", "b_cable", "b_strand"]
+    columns += ["method", "loss_db", "spliced_on", "spliced_by"]
+    with sheet.open("w", newline="", encoding="utf-8") as out:
+        writer = csv.DictWriter(out, columns)
+        writer.writeheader()
+        writer.writerows(ROWS)
+    command = PlantCli(db_url).json("import", "splices", str(sheet), "--dry-run")
+    assert command.pop("file") == str(sheet) and command.pop("rows") == len(ROWS)
+    assert command == api
 
 
 def test_api_splice_rows_are_all_or_none(yard: FlaskClient) -> None:
