@@ -20,6 +20,7 @@ from sqlalchemy.orm import Session
 
 from plantdb.db import Database, schema_revisions
 from plantdb.errors import PlantError
+from plantdb.files import written_whole
 from plantdb.records.bundle import dump_bundle
 
 
@@ -97,12 +98,8 @@ def _bundle_backup(database: Database, target: Path) -> dict[str, Any]:
         snapshot = connection.execution_options(isolation_level="REPEATABLE READ")
         with Session(bind=snapshot) as session, session.begin():
             bundle = dump_bundle(session)
-    partial = _partial(target)
-    try:
+    with written_whole(target) as partial:
         partial.write_text(json.dumps(bundle, indent=1, ensure_ascii=False) + "\n", "utf-8")
-        partial.replace(target)
-    finally:
-        partial.unlink(missing_ok=True)
     return {"method": "bundle", "hint": pg_dump_hint(database.url)}
 
 

@@ -13,6 +13,7 @@ from plantdb.cli import Invocation, cli, plant_command
 from plantdb.cli_access import READS, writes
 from plantdb.db import run_in_transaction, upgrade_schema
 from plantdb.errors import PlantError
+from plantdb.files import written_whole
 from plantdb.records.bundle import dump_bundle, load_bundle, read_bundle_file
 from plantdb.records.summary import is_empty, record_counts
 
@@ -91,12 +92,10 @@ def dump_command(run: Invocation, output: Path | None) -> None:
     if output is None:
         click.echo(text, nl=False)
         return
-    temporary = output.with_name(output.name + ".partial")
     try:
-        temporary.write_text(text, encoding="utf-8")
-        temporary.replace(output)  # a reader never sees half a bundle
+        with written_whole(output) as temporary:
+            temporary.write_text(text, encoding="utf-8")
     except OSError as exc:
-        temporary.unlink(missing_ok=True)
         raise PlantError(f"cannot write {output}: {exc.strerror or exc}") from exc
     if run.as_json:
         click.echo(json.dumps({"written": str(output), "bytes": len(text.encode())}))

@@ -15,6 +15,7 @@ from sqlalchemy.orm import Session
 
 from plantdb.colours import TIA_598, Marking
 from plantdb.errors import PlantError
+from plantdb.files import written_whole
 from plantdb.records.print_sheet import write_html
 from plantdb.records.sheet_files import COLUMNS, neutralise
 from plantdb.records.splice_rows import ClosureSheet, RecordedSplice, closure_sheet, end_markings
@@ -142,11 +143,6 @@ def export_splice_sheet(session: Session, label: str, path: str | Path) -> dict[
     if write is None:
         raise PlantError(f"{file.name}: write the splice sheet to a .csv, .xlsx or .html file")
     sheet = closure_sheet(session, label)
-    temporary = file.with_name(f".{file.name}.partial")
-    try:
+    with written_whole(file) as temporary:
         write(sheet, temporary)
-        temporary.replace(file)  # a reader never sees half a sheet
-    except BaseException:
-        temporary.unlink(missing_ok=True)  # a failed write leaves no half sheet behind
-        raise
     return {"closure": label, "written": str(file), "splices": len(sheet.splices)}

@@ -149,8 +149,9 @@ def test_a_failed_write_leaves_no_partial_file_and_the_old_sheet_whole(
         raise OSError(28, "No space left on device")
 
     monkeypatch.setattr(sheet_export, f"write_{suffix[1:]}", fails_half_way)
-    with pytest.raises(OSError, match="No space left"):
+    with pytest.raises(OSError, match="No space left") as failed:
         export(yard, target)
+    assert failed.value.filename == str(target)  # the file asked for, not the temporary one
     assert sorted(p.name for p in out.iterdir()) == [target.name]
     assert target.read_bytes() == b"the sheet exported yesterday"
 
