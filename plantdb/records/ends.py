@@ -87,8 +87,8 @@ def _strand_end(
             raise PlantError(
                 f"{text}: {cable.label} passes through {station.place} mid-span; say which piece"
                 f" of the cut strand, {strand_address(cable.label, number, 'A')} (toward"
-                f" {cable.stations[0].place}) or {strand_address(cable.label, number, 'B')}"
-                f" (toward {cable.stations[-1].place})"
+                f" {cable.toward('A')}) or {strand_address(cable.label, number, 'B')}"
+                f" (toward {cable.toward('B')})"
             )
     elif side is not None and side != end_side:
         which = "starts" if end_side == "B" else "ends"

@@ -77,6 +77,11 @@ class CableInfo:
     def station_at_panel(self, panel_id: int) -> StationInfo | None:
         return next((s for s in self.stations if s.panel_id == panel_id), None)
 
+    def toward(self, side: str) -> str:
+        """Where the glass of a cut strand's piece runs: the place at that end of the cable
+        (side "A": its A end, "B": its B end)."""
+        return self.stations[0 if side == "A" else -1].place
+
     def end_side(self, station: StationInfo) -> str | None:
         """At the cable's A end its glass runs toward B ('B'); at the B end toward A ('A')."""
         if station.seq == self.stations[0].seq:

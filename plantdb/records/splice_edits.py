@@ -22,6 +22,7 @@ from plantdb.records.history import changed_since
 from plantdb.records.lookup import PlaceInfo, RecordLookup
 from plantdb.records.splice_requests import SpliceReport
 from plantdb.records.splice_rows import RecordedEnd, RecordedSplice, recorded_splices
+from plantdb.records.splicing import with_toward
 from plantdb.trace.circuits import refresh_affected
 
 
@@ -130,11 +131,9 @@ def _lost_race(closure: PlaceInfo, what: str) -> ConflictError:
     )
 
 
-def _describe(
-    closure: PlaceInfo, splice: RecordedSplice, tray: int, slot: int
-) -> dict[str, object]:
+def _describe(closure: PlaceInfo, splice: RecordedSplice, tray: int, slot: int) -> dict[str, Any]:
     """The splice as reported, with which way each mid-span piece runs (as `splicing`)."""
-    item: dict[str, object] = {
+    item: dict[str, Any] = {
         "closure": closure.label,
         "a": splice.a.address,
         "b": splice.b.address,
@@ -143,10 +142,7 @@ def _describe(
         "method": splice.method,
         "loss_db": splice.loss_db,
     }
-    for key, end in (("a_toward", splice.a), ("b_toward", splice.b)):
-        if end.toward is not None:
-            item[key] = end.toward
-    return item
+    return with_toward(item, splice.a.toward, splice.b.toward)
 
 
 def remove_splices(

@@ -49,7 +49,7 @@ class RecordedEnd:
         """Where the glass of a mid-span piece runs: the label of that end of the cable."""
         if self.side is None or self.cable is None:
             return None
-        return self.cable.stations[0 if self.side == "A" else -1].place
+        return self.cable.toward(self.side)
 
 
 @dataclass(frozen=True)

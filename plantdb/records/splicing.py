@@ -97,7 +97,7 @@ class _Group:
         first = self.ends[0]
         if self.cable is None or not first.mid_span or first.side is None:
             return None
-        return self.cable.stations[0 if first.side == "A" else -1].place
+        return self.cable.toward(first.side)
 
 
 @dataclass
@@ -144,12 +144,15 @@ class _Planned:
             "spliced_on": on.isoformat() if on else None,
             "spliced_by": self.request.spliced_by,
         }
-        a_toward, b_toward = self.toward
-        if a_toward is not None:
-            item["a_toward"] = a_toward
-        if b_toward is not None:
-            item["b_toward"] = b_toward
-        return item
+        return with_toward(item, *self.toward)
+
+
+def with_toward(item: dict[str, Any], a: str | None, b: str | None) -> dict[str, Any]:
+    """A reported splice with, at a mid-span access, where each cut piece runs."""
+    for key, toward in zip(_REPORT_ONLY, (a, b), strict=True):
+        if toward is not None:
+            item[key] = toward
+    return item
 
 
 def _bundle_item(item: dict[str, Any]) -> dict[str, Any]:
