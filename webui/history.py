@@ -12,7 +12,7 @@ from sqlalchemy.orm import Session
 from werkzeug.exceptions import BadRequest
 
 from plantdb.errors import PlantError
-from plantdb.records.history import VERBS, change_summary, history_document
+from plantdb.records.history import KINDS, VERBS, change_summary, history_document
 from plantdb.records.sheet_history import closure_sheet_as_of, parse_day
 from webui import params
 from webui.store import reading
@@ -38,7 +38,7 @@ def _day(args: Any, name: str) -> dt.date | None:
         raise BadRequest(error.message.replace("as_of", name, 1)) from None
 
 
-@blueprint.route("/<any(closure, cable, circuit, panel, structure, span):kind>/<path:label>")
+@blueprint.route(f"/<any({', '.join(KINDS)}):kind>/<path:label>")
 def history(kind: str, label: str) -> str:
     """Every recorded change of a thing with a history (`KINDS`), newest first, a page at a
     time."""

@@ -79,7 +79,7 @@ def fiber_types_document(session: Session) -> dict[str, Any]:
     types = []
     for row in session.scalars(select(FiberType).order_by(FiberType.name)):
         fiber = _catalogue_class(row.standard)
-        mode = row.mode.value if hasattr(row.mode, "value") else str(row.mode)
+        mode = row.mode.value
         recorded = own.get(row.id, {})
         wavelengths = sorted(set(catalogue.SUPPORTED_WAVELENGTHS.get(mode, ())) | set(recorded))
         values = {}
