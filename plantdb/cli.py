@@ -27,6 +27,7 @@ from plantdb.db import (
     run_in_transaction,
 )
 from plantdb.errors import PlantError, UsageProblem
+from plantdb.security_log import configured_path, sent_to
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -107,7 +108,9 @@ def plant_command(
                 owner = database_owner or bool(parent and parent.database_owner)
                 database = invocation.database(current=False)
                 assert isinstance(access, frozenset)
-                with acting_for(database, words, access, owner):
+                # The security log is opened first (where `plantdb serve` writes its own), so
+                # a log that cannot be written stops the command before anything changes.
+                with sent_to(configured_path()), acting_for(database, words, access, owner):
                     return function(invocation, **kwargs)
             finally:
                 invocation.close()

@@ -27,7 +27,7 @@ from plantdb.db import Database, run_in_transaction, schema_revisions
 from plantdb.errors import PlantError
 from plantdb.model import Role
 from plantdb.people import anyone_defined, authenticate_token
-from plantdb.security_log import configured_path, log_event, sent_to
+from plantdb.security_log import log_event
 
 ENV_TOKEN = "PLANTDB_TOKEN"
 READS = "reads"
@@ -53,8 +53,7 @@ def _login() -> str:
 
 
 def _log(event: str, who: str, what: str, level: int, **more: object) -> None:
-    with sent_to(configured_path()):
-        log_event(event, who, "command line", what, level=level, **more)
+    log_event(event, who, "command line", what, level=level, **more)
 
 
 def _people_defined(database: Database) -> bool:

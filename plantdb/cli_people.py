@@ -1,18 +1,16 @@
 """People and tokens: `plantdb user add|disable|enable|password|list`, `plantdb token add`.
 
-Whoever can run these against the database is its administrator: the command line talks to
-the database directly, so it is not subject to the web roles. Passwords are read from
-standard input (typed twice at a terminal), never from the command line, where other users
-of the machine could see them in the process list.
+Once anyone exists, the commands that change people need an administrator (`plantdb.cli_access`:
+an admin's API token, or `--database-owner`), and each change is written to the security log.
+Passwords are read from standard input (typed twice at a terminal), never from the command
+line, where other users of the machine could see them in the process list.
 """
 
 from __future__ import annotations
 
-import functools
 import logging
 import sys
-from collections.abc import Callable
-from typing import Any, TypeVar
+from typing import Any
 
 import click
 from sqlalchemy.orm import Session
@@ -31,32 +29,13 @@ from plantdb.people import (
     list_people,
     set_password,
 )
-from plantdb.security_log import configured_path, log_event, sent_to
-
-F = TypeVar("F", bound=Callable[..., Any])
-
-
-def _operator() -> str:
-    """Who ran the command, for the security log: the person whose token it ran with, else
-    the operating-system account (`cli:<login>`), as the history records it."""
-    return current_actor()
+from plantdb.security_log import log_event
 
 
 def _log(event: str, name: str, **more: object) -> None:
-    log_event(event, _operator(), "command line", name, level=logging.INFO, **more)
-
-
-def _logged(command: F) -> F:
-    """Run a command that changes people with the security log open where `plantdb serve`
-    writes its own ($PLANTDB_SECURITY_LOG, else standard error). It is opened first, so a
-    log file that cannot be written is refused before anything changes."""
-
-    @functools.wraps(command)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
-        with sent_to(configured_path()):
-            return command(*args, **kwargs)
-
-    return wrapper  # type: ignore[return-value]
+    """A people change in the security log, made by whoever the command acts as: the person
+    whose token it ran with, else `cli:<login>`, as the history records it."""
+    log_event(event, current_actor(), "command line", name, level=logging.INFO, **more)
 
 
 def read_password() -> str:
@@ -86,7 +65,6 @@ def user_group() -> None:
     help="viewer reads; clerk edits the record; dispatcher sets circuit status; engineer"
     " edits circuits and test results; admin does everything.",
 )
-@_logged
 def user_add_command(run: Invocation, name: str, role: str) -> None:
     """Add a person; the password is read from standard input (8 to 64 characters)."""
     password = read_password()
@@ -102,7 +80,6 @@ def user_add_command(run: Invocation, name: str, role: str) -> None:
 
 @plant_command(user_group, "disable", access=writes())
 @click.argument("name")
-@_logged
 def user_disable_command(run: Invocation, name: str) -> None:
     """Disable a person: their sessions and tokens stop working at once."""
     run_in_transaction(run.database(), lambda session: disable_person(session, name))
@@ -115,7 +92,6 @@ def user_disable_command(run: Invocation, name: str) -> None:
 
 @plant_command(user_group, "enable", access=writes())
 @click.argument("name")
-@_logged
 def user_enable_command(run: Invocation, name: str) -> None:
     """Let a disabled person sign in again (their old sessions and tokens stay revoked)."""
     run_in_transaction(run.database(), lambda session: enable_person(session, name))
@@ -125,7 +101,6 @@ def user_enable_command(run: Invocation, name: str) -> None:
 
 @plant_command(user_group, "password", access=writes())
 @click.argument("name")
-@_logged
 def user_password_command(run: Invocation, name: str) -> None:
     """Set a person's password (from standard input); their sessions and tokens are revoked."""
     password = read_password()
@@ -163,7 +138,6 @@ def token_group() -> None:
 
 @plant_command(token_group, "add", access=writes())
 @click.argument("name")
-@_logged
 def token_add_command(run: Invocation, name: str) -> None:
     """Print a new API token for the person; it is shown this once and kept only as a hash."""
     token = run_in_transaction(run.database(), lambda session: add_token(session, name))

@@ -141,3 +141,17 @@ def test_the_database_owner_acts_as_administrator_and_is_logged(
     )
     (change,) = _changes_of(plant, "AC-1 tray 1 slot 3")
     assert change["actor"].startswith("cli:")
+
+
+def test_a_security_log_that_cannot_be_written_stops_a_write_first(
+    plant: PlantCli, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Every command that writes opens the security log before it does anything, so a
+    refusal it would log can never pass unlogged, and nothing is half done."""
+    tokens = _with_people(plant, tmp_path)
+    monkeypatch.setenv(ENV_TOKEN, tokens["carla"])
+    monkeypatch.setenv("PLANTDB_SECURITY_LOG", str(tmp_path / "no such folder" / "x.log"))
+    refused = plant(*SPLICE, "--slot", "2")
+    assert refused.exit_code == 1 and "no such folder" in refused.stderr
+    monkeypatch.delenv("PLANTDB_SECURITY_LOG")
+    assert _changes_of(plant, "AC-1 tray 1 slot 2") == []
